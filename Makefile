@@ -1,0 +1,38 @@
+# widen: `make demo` and `make test` do all set-up on a fresh machine with Python 3.11 and make.
+PYTHON ?= python3.11
+VENV := .venv
+BIN := $(VENV)/bin
+DEMO := build/demo
+STORE := build/store
+POSTINGS ?= 20000
+
+.PHONY: demo test lint bench clean
+
+# The venv is (re)built when pyproject.toml changes.
+$(BIN)/.installed: pyproject.toml
+	@command -v $(PYTHON) >/dev/null 2>&1 || { echo "need $(PYTHON) (or run: make PYTHON=python3 ...)"; exit 1; }
+	test -x $(BIN)/python || $(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+	$(BIN)/python -m pip install --quiet -e '.[test]'
+	touch $@
+
+$(DEMO)/postings.jsonl: demo_postings/generate.py | $(BIN)/.installed
+	$(BIN)/python demo_postings/generate.py --out $(DEMO) --postings $(POSTINGS) --seed 7
+
+demo: $(BIN)/.installed $(DEMO)/postings.jsonl
+	$(BIN)/widen train --corpus $(DEMO)/postings.jsonl --store $(STORE) --config demo_postings/widen.toml || [ $$? -eq 3 ]
+	$(BIN)/widen bundles --store $(STORE)
+
+lint: $(BIN)/.installed
+	$(BIN)/ruff check service training tests demo_postings bench
+	$(BIN)/ruff format --check service training tests demo_postings bench
+	$(BIN)/mypy service training
+
+test: lint
+	$(BIN)/python -m pytest -q
+
+bench: $(BIN)/.installed $(DEMO)/postings.jsonl
+	$(BIN)/python bench/run.py --demo $(DEMO) --out build/bench
+
+clean:
+	rm -rf build

@@ -1,0 +1,151 @@
+"""The training configuration: one TOML file, validated before any work starts.
+
+Every key has a visible default (`widen train --print-config`), an unknown key or a bad
+value fails at once naming the key, and the whole effective config is copied into the
+bundle's manifest so a bundle says exactly how it was made.
+"""
+
+from __future__ import annotations
+
+import tomllib
+from pathlib import Path
+from typing import Any, Literal
+
+import tomli_w
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
+
+__all__ = ["TrainConfig", "ConfigError", "load_config"]
+
+# gensim's English connector words (gensim.models.phrases.ENGLISH_CONNECTOR_WORDS), written out
+# so the config shows them and a team can change them.
+DEFAULT_CONNECTORS = [
+    "a",
+    "an",
+    "and",
+    "at",
+    "by",
+    "for",
+    "from",
+    "in",
+    "of",
+    "on",
+    "or",
+    "the",
+    "to",
+    "with",
+    "without",
+]
+
+
+class _Section(BaseModel):
+    model_config = ConfigDict(extra="forbid", validate_assignment=True)
+
+
+class CorpusSection(_Section):
+    fields: list[str] = Field(default=["title", "description"], min_length=1)
+    protected_fields: list[str] = ["location", "employer"]
+    max_bad_fraction: float = Field(default=0.05, ge=0.0, le=1.0)
+    max_line_bytes: int = Field(default=1 << 20, ge=1024)
+    format: Literal["auto", "jsonl", "csv"] = "auto"
+    workers: int = Field(default=2, ge=1, le=64)
+
+    @field_validator("fields")
+    @classmethod
+    def _title_first(cls, value: list[str]) -> list[str]:
+        if "id" in value:
+            raise ValueError("'id' is not a text field")
+        return value
+
+
+class PhrasesSection(_Section):
+    min_count: int = Field(default=10, ge=1)
+    threshold: float = 0.5
+    max_words: int = Field(default=3, ge=1, le=6)
+    scoring: Literal["npmi", "default"] = "npmi"
+    connector_words: list[str] = DEFAULT_CONNECTORS
+
+    @model_validator(mode="after")
+    def _threshold_fits_scorer(self) -> PhrasesSection:
+        if self.scoring == "npmi" and not -1.0 < self.threshold < 1.0:
+            raise ValueError("threshold: NPMI scores lie in (-1, 1), so the threshold must too")
+        return self
+
+
+class EmbeddingSection(_Section):
+    vector_size: int = Field(default=100, ge=2, le=1000)
+    window: int = Field(default=5, ge=1, le=50)
+    negative: int = Field(default=5, ge=1, le=50)
+    min_count: int = Field(default=5, ge=1)
+    epochs: int = Field(default=5, ge=1, le=200)
+    sample: float = Field(default=1e-3, ge=0.0, lt=1.0)
+    alpha: float = Field(default=0.025, gt=0.0, le=1.0)
+    seed: int = 1
+    workers: int = Field(default=2, ge=1, le=64)
+
+
+class NeighboursSection(_Section):
+    top_k: int = Field(default=50, ge=1, le=1000)
+    block_rows: int = Field(default=2048, ge=1)
+
+
+class GateSection(_Section):
+    pairs: str = ""
+    top_k: int = Field(default=10, ge=1, le=1000)
+    min_similarity: float = Field(default=0.3, ge=-1.0, le=1.0)
+    tolerance: float = Field(default=0.02, ge=0.0, le=1.0)
+    min_score: float = Field(default=0.5, ge=0.0, le=1.0)
+
+
+class StoreSection(_Section):
+    keep: int = Field(default=5, ge=1)
+
+
+class TrainConfig(_Section):
+    corpus: CorpusSection = CorpusSection()
+    phrases: PhrasesSection = PhrasesSection()
+    embedding: EmbeddingSection = EmbeddingSection()
+    neighbours: NeighboursSection = NeighboursSection()
+    gate: GateSection = GateSection()
+    store: StoreSection = StoreSection()
+
+    def to_toml(self) -> str:
+        return tomli_w.dumps(self.model_dump())
+
+
+class ConfigError(ValueError):
+    """A config file that cannot be used; the message names the key."""
+
+
+def _explain(error: ValidationError) -> str:
+    lines = []
+    for item in error.errors():
+        key = ".".join(str(part) for part in item["loc"])
+        if item["type"] == "extra_forbidden":
+            lines.append(f"unknown key '{key}'")
+        else:
+            lines.append(f"'{key}': {item['msg']} (got {item.get('input')!r})")
+    return "; ".join(lines)
+
+
+def load_config(path: Path | None, overrides: dict[str, Any] | None = None) -> TrainConfig:
+    """Read and validate a TOML config; relative gate.pairs paths resolve against the file's folder."""
+    data: dict[str, Any] = {}
+    if path is not None:
+        try:
+            data = tomllib.loads(path.read_text(encoding="utf-8"))
+        except FileNotFoundError as exc:
+            raise ConfigError(f"config file not found: {path}") from exc
+        except tomllib.TOMLDecodeError as exc:
+            raise ConfigError(f"{path}: not valid TOML: {exc}") from exc
+    for dotted, value in (overrides or {}).items():
+        section, key = dotted.split(".", 1)
+        data.setdefault(section, {})[key] = value
+    try:
+        config = TrainConfig.model_validate(data)
+    except ValidationError as exc:
+        where = f"{path}: " if path else ""
+        raise ConfigError(where + _explain(exc)) from exc
+    pairs = config.gate.pairs
+    if pairs and path is not None and not (overrides or {}).get("gate.pairs") and not Path(pairs).is_absolute():
+        config.gate.pairs = str((path.parent / pairs).resolve())
+    return config

@@ -1,0 +1,156 @@
+"""The promotion gate: is a candidate model at least as good as the one serving now?
+
+A pairs file lists phrase pairs a reviewer knows: `near` pairs (another name for the
+same job) should sit in each other's top k above a similarity floor; `far` pairs
+(different jobs, including the polysemy traps) should not. The score is the share of
+pair checks that hold. A candidate is refused when it scores below an absolute floor
+or more than a tolerance below the serving bundle on the same pairs.
+"""
+
+from __future__ import annotations
+
+import csv
+from collections.abc import Mapping
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import numpy.typing as npt
+
+from training.config import GateSection
+from training.tokenize import PHRASE_JOINER, tokens
+
+__all__ = ["Pair", "PairsError", "read_pairs", "phrase_key", "score_pairs", "GateResult", "decide"]
+
+
+@dataclass(frozen=True)
+class Pair:
+    a: str
+    b: str
+    near: bool
+
+
+class PairsError(ValueError):
+    """The pairs file cannot be read; the message says where."""
+
+
+def read_pairs(path: Path) -> list[Pair]:
+    """Read `phrase_a<TAB>phrase_b<TAB>near|far` rows after a header row."""
+    try:
+        with path.open(encoding="utf-8", newline="") as fh:
+            rows = list(csv.reader(fh, delimiter="\t"))
+    except FileNotFoundError as exc:
+        raise PairsError(f"gate pairs file not found: {path}") from exc
+    except UnicodeDecodeError as exc:
+        raise PairsError(f"gate pairs file is not UTF-8: {path}") from exc
+    pairs = []
+    for number, row in enumerate(rows[1:], start=2):
+        if not row or not "".join(row).strip():
+            continue
+        if len(row) != 3 or row[2].strip() not in {"near", "far"}:
+            raise PairsError(f"{path}:{number}: expected phrase_a<TAB>phrase_b<TAB>near|far, got {row!r}")
+        pairs.append(Pair(row[0].strip(), row[1].strip(), row[2].strip() == "near"))
+    if not pairs:
+        raise PairsError(f"gate pairs file has no pairs: {path}")
+    return pairs
+
+
+def phrase_key(phrase: str) -> str:
+    """The vocabulary entry a written phrase would have: its tokens joined as the phrase model joins them."""
+    return PHRASE_JOINER.join(tokens(phrase))
+
+
+def _within(
+    index: Mapping[str, int],
+    nbr_idx: npt.NDArray[np.int32],
+    nbr_sim: npt.NDArray[np.float32],
+    a: str,
+    b: str,
+    top_k: int,
+    floor: float,
+) -> bool:
+    ia, ib = index.get(phrase_key(a)), index.get(phrase_key(b))
+    if ia is None or ib is None:
+        return False
+    row = nbr_idx[ia, :top_k]
+    hits = np.nonzero(row == ib)[0]
+    return bool(hits.size) and float(nbr_sim[ia, hits[0]]) >= floor
+
+
+def score_pairs(
+    index: Mapping[str, int],
+    nbr_idx: npt.NDArray[np.int32],
+    nbr_sim: npt.NDArray[np.float32],
+    pairs: list[Pair],
+    config: GateSection,
+) -> dict[str, Any]:
+    """Score a neighbour table on the pairs; each pair is checked in both directions."""
+    checks = near_ok = near_n = far_ok = far_n = 0
+    failed: list[dict[str, str]] = []
+    missing: list[str] = []
+    for pair in pairs:
+        for x, y in ((pair.a, pair.b), (pair.b, pair.a)):
+            if phrase_key(x) not in index and x not in missing:
+                missing.append(x)
+            hit = _within(index, nbr_idx, nbr_sim, x, y, config.top_k, config.min_similarity)
+            checks += 1
+            if pair.near:
+                near_n += 1
+                near_ok += hit
+            else:
+                far_n += 1
+                far_ok += not hit
+            if hit != pair.near:
+                failed.append({"from": x, "to": y, "expect": "near" if pair.near else "far"})
+    score = (near_ok + far_ok) / checks if checks else 0.0
+    return {
+        "score": round(score, 6),
+        "near": round(near_ok / near_n, 6) if near_n else None,
+        "far": round(far_ok / far_n, 6) if far_n else None,
+        "checks": checks,
+        "failed": failed[:50],
+        "missing": missing[:50],
+    }
+
+
+@dataclass(frozen=True)
+class GateResult:
+    passed: bool
+    score: float | None
+    current_score: float | None
+    reasons: list[str]
+    details: dict[str, Any]
+
+    def as_dict(self) -> dict[str, Any]:
+        return {
+            "passed": self.passed,
+            "score": self.score,
+            "current_score": self.current_score,
+            "reasons": self.reasons,
+            "details": self.details,
+        }
+
+
+def decide(
+    candidate: dict[str, Any] | None,
+    current: dict[str, Any] | None,
+    config: GateSection,
+    structure_problems: list[str],
+) -> GateResult:
+    """Combine the structural checks, the absolute floor and the comparison with the serving bundle."""
+    reasons = list(structure_problems)
+    score = candidate["score"] if candidate else None
+    current_score = current["score"] if current else None
+    if candidate is None:
+        details: dict[str, Any] = {"note": "no gate pairs configured: only the structure was checked"}
+    else:
+        details = {"candidate": candidate, "current": current}
+        if score is not None and score < config.min_score:
+            reasons.append(f"score {score:.3f} is below the floor gate.min_score = {config.min_score:.3f}")
+        if score is not None and current_score is not None and score < current_score - config.tolerance:
+            reasons.append(
+                f"score {score:.3f} is more than gate.tolerance = {config.tolerance:.3f} "
+                f"below the serving bundle's {current_score:.3f}"
+            )
+    return GateResult(not reasons, score, current_score, reasons, details)

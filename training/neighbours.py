@@ -1,0 +1,70 @@
+"""Exact cosine nearest neighbours for every vocabulary entry, in blocks.
+
+A block of rows is multiplied by the whole normalised matrix (one BLAS call), the
+entry itself is masked, and the top k are picked with argpartition and sorted. Peak
+extra memory is `block_rows x V` floats, never the full V x V matrix.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+
+import numpy as np
+import numpy.typing as npt
+
+__all__ = ["normalise_rows", "top_k_table", "top_k_for_vector"]
+
+Matrix = npt.NDArray[np.float32]
+
+
+def normalise_rows(vectors: npt.ArrayLike) -> Matrix:
+    """Unit-length float32 rows; an all-zero row stays zero."""
+    matrix = np.asarray(vectors, dtype=np.float32)
+    norms = np.linalg.norm(matrix, axis=1, keepdims=True)
+    norms[norms == 0] = 1.0
+    result: Matrix = (matrix / norms).astype(np.float32, copy=False)
+    return result
+
+
+def _top_k_rows(sims: Matrix, k: int) -> tuple[npt.NDArray[np.int32], Matrix]:
+    k = min(k, sims.shape[1])
+    part = np.argpartition(-sims, k - 1, axis=1)[:, :k]
+    part_sims = np.take_along_axis(sims, part, axis=1)
+    # Stable order: similarity descending, then index ascending for ties.
+    order = np.lexsort((part, -part_sims), axis=1)
+    idx = np.take_along_axis(part, order, axis=1)
+    return idx.astype(np.int32), np.take_along_axis(part_sims, order, axis=1).astype(np.float32)
+
+
+def top_k_table(
+    normed: Matrix,
+    k: int,
+    block_rows: int = 2048,
+    on_block: Callable[[int], None] | None = None,
+) -> tuple[npt.NDArray[np.int32], Matrix]:
+    """For each row, the k most cosine-similar other rows: (indices V x k, similarities V x k)."""
+    vocab = normed.shape[0]
+    k = min(k, max(vocab - 1, 0))
+    indices = np.zeros((vocab, k), dtype=np.int32)
+    sims_out = np.zeros((vocab, k), dtype=np.float32)
+    if k == 0:
+        return indices, sims_out
+    for start in range(0, vocab, block_rows):
+        stop = min(start + block_rows, vocab)
+        sims = normed[start:stop] @ normed.T
+        rows = np.arange(stop - start)
+        sims[rows, rows + start] = -np.inf
+        idx, val = _top_k_rows(sims, k)
+        indices[start:stop] = idx
+        sims_out[start:stop] = val
+        if on_block is not None:
+            on_block(stop - start)
+    return indices, sims_out
+
+
+def top_k_for_vector(normed: Matrix, vector: npt.ArrayLike, k: int) -> tuple[npt.NDArray[np.int32], Matrix]:
+    """Exact search for one (already normalised) vector over all rows."""
+    query = np.asarray(vector, dtype=np.float32).reshape(1, -1)
+    sims = query @ normed.T
+    idx, val = _top_k_rows(sims, k)
+    return idx[0], val[0]
