@@ -244,7 +244,12 @@ class Store:
         """The bundle that served before the current one, skipping any that were rolled back from."""
         current = self.current_version()
         journal = self.read_journal()
-        rolled_back = {e.get("from") for e in journal if e.get("by") == "rollback"}
+        rolled_back: set[str] = set()
+        for entry in journal:
+            # A bundle rolled back from is skipped until someone promotes it again.
+            if entry.get("by") == "rollback" and entry.get("from"):
+                rolled_back.add(entry["from"])
+            rolled_back.discard(entry.get("version", ""))
         available = set(self.versions())
         for entry in reversed(journal):
             version = entry.get("version")

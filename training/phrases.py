@@ -85,19 +85,20 @@ def words_in(entry: str) -> int:
 
 def learn_phrases(
     first: Iterable[list[str]],
-    again: Callable[[], Iterable[list[str]]],
+    again: Callable[[Phraser], Iterable[list[str]]],
     config: PhrasesSection,
     on_pass: Callable[[int], None] | None = None,
 ) -> tuple[Phraser, list[PhraseRow]]:
-    """Learn `max_words - 1` passes: the first over `first`, each later one over a fresh `again()`.
+    """Learn `max_words - 1` passes: the first over `first`, pass k over `again(pass k-1)`.
 
-    `first` may be the stream that reads and tokenises the corpus, so pass one costs no extra read.
+    `first` may be the stream that reads and tokenises the corpus, so pass one costs no extra
+    read; `again(newest)` must stream the corpus as phrased so far with `newest` applied on top,
+    so every pass is applied once, as when phrasing by hand.
     """
     passes: list[FrozenPhrases] = []
     table: list[PhraseRow] = []
     for number in range(1, config.max_words):
-        applied = Phraser(list(passes))
-        stream = first if number == 1 else applied.stream(again())
+        stream = first if number == 1 else again(Phraser(passes[-1:]))
         model = Phrases(
             stream,
             min_count=config.min_count,

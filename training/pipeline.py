@@ -71,10 +71,29 @@ class _EpochProgress(CallbackAny2Vec):  # type: ignore[misc]
         self.progress.update(1)
 
 
-def _scratch_sentences(path: Path) -> Iterator[list[str]]:
-    with path.open(encoding="utf-8") as fh:
-        for line in fh:
-            yield line[2:].split()
+class _Scratch:
+    """The corpus as phrased so far, in a scratch file of `T|D<TAB>tokens` lines (T: title).
+
+    `through(phraser)` streams it with one more phrase pass applied and writes that as the
+    next scratch file, so the next pass reads it without applying earlier passes again.
+    """
+
+    def __init__(self, folder: Path) -> None:
+        self.folder = folder
+        self.generation = 0
+        self.path = folder / "sentences.0.txt"
+
+    def through(self, phraser: Phraser) -> Iterator[list[str]]:
+        source = self.path
+        self.generation += 1
+        target = self.folder / f"sentences.{self.generation}.txt"
+        with source.open(encoding="utf-8") as src, target.open("w", encoding="utf-8") as dst:
+            for line in src:
+                entries = phraser(line[2:].split())
+                dst.write(f"{line[:2]}{' '.join(entries)}\n")
+                yield entries
+        source.unlink()
+        self.path = target
 
 
 def _tokenise_batch(batch: list[Posting]) -> list[tuple[Posting, list[list[list[str]]]]]:
@@ -159,12 +178,13 @@ def _check_bad_fraction(corpus: PostingCorpus, used: int, config: TrainConfig) -
         )
 
 
-def _phrase_pass(phraser: Phraser, scratch: Path, phrased: Path) -> Counter[str]:
-    """Write the phrased corpus (plain token lines, for Word2Vec) and count entries used in titles."""
+def _final_pass(phraser: Phraser, scratch: _Scratch, phrased: Path) -> Counter[str]:
+    """Apply the last phrase pass, write plain token lines for Word2Vec, count entries used in titles."""
     in_titles: Counter[str] = Counter()
-    with scratch.open(encoding="utf-8") as src, phrased.open("w", encoding="utf-8") as dst:
+    last = Phraser(phraser.passes[-1:]) if scratch.generation < len(phraser.passes) else Phraser([])
+    with scratch.path.open(encoding="utf-8") as src, phrased.open("w", encoding="utf-8") as dst:
         for line in src:
-            entries = phraser(line[2:].split())
+            entries = last(line[2:].split())
             if line[0] == "T":
                 in_titles.update(entries)
             dst.write(" ".join(entries) + "\n")
@@ -239,20 +259,18 @@ def train(
         try:
             scratch_dir = work / "_scratch"
             scratch_dir.mkdir()
-            scratch, phrased = scratch_dir / "sentences.txt", scratch_dir / "phrased.txt"
+            scratch, phrased = _Scratch(scratch_dir), scratch_dir / "phrased.txt"
             seconds["checksum"] = time.monotonic() - started
 
             corpus = PostingCorpus(corpus_path, config.corpus)
             t = time.monotonic()
-            first = _FirstPass(corpus, scratch, config.corpus.workers, out)
+            first = _FirstPass(corpus, scratch.path, config.corpus.workers, out)
             with Progress(
                 "phrase passes", total=max(config.phrases.max_words - 1, 0), unit="passes", stream=out, every=0
             ) as bar:
-                phraser, table = learn_phrases(
-                    first, lambda: _scratch_sentences(scratch), config.phrases, lambda n: bar.update()
-                )
+                phraser, table = learn_phrases(first, scratch.through, config.phrases, lambda n: bar.update())
                 _check_bad_fraction(corpus, first.used, config)
-                in_titles = _phrase_pass(phraser, scratch, phrased)
+                in_titles = _final_pass(phraser, scratch, phrased)
             seconds["read, tokenise and phrases"] = time.monotonic() - t
 
             t = time.monotonic()

@@ -1,0 +1,61 @@
+"""Shared fixtures: a small Tollbridge Valley Jobs dump and a store trained on it once per session."""
+
+from __future__ import annotations
+
+import io
+import json
+import os
+import shutil
+from collections.abc import Iterator
+from pathlib import Path
+
+import pytest
+
+from demo_postings.generate import generate
+from training.config import TrainConfig, load_config
+from training.pipeline import TrainOutcome, train
+
+SMALL_POSTINGS = 4000
+IN_CI = os.environ.get("CI") == "true"
+
+
+@pytest.fixture(scope="session")
+def demo_dir(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """A generated demo dump (postings, queries, truth, pairs), small enough to train in seconds."""
+    out = tmp_path_factory.mktemp("demo")
+    generate(out, SMALL_POSTINGS, seed=11)
+    return out
+
+
+def demo_config(demo_dir: Path, **overrides: object) -> TrainConfig:
+    values: dict[str, object] = {"gate.pairs": str(demo_dir / "pairs.tsv")}
+    values.update(overrides)
+    return load_config(None, values)
+
+
+def train_quietly(corpus: Path, store: Path, config: TrainConfig, force: bool = False) -> TrainOutcome:
+    return train(corpus, store, config, force=force, out=io.StringIO())
+
+
+@pytest.fixture(scope="session")
+def trained_store(demo_dir: Path, tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """A store with one current bundle trained on the small demo dump. Treat as read-only."""
+    store = tmp_path_factory.mktemp("store")
+    outcome = train_quietly(demo_dir / "postings.jsonl", store, demo_config(demo_dir))
+    assert outcome.promoted, outcome.gate.reasons
+    return store
+
+
+@pytest.fixture
+def store_copy(trained_store: Path, tmp_path: Path) -> Iterator[Path]:
+    """A private copy of the trained store, for tests that change it."""
+    target = tmp_path / "store"
+    shutil.copytree(trained_store, target)
+    yield target
+
+
+def write_jsonl(path: Path, rows: list[object]) -> Path:
+    with path.open("w", encoding="utf-8") as fh:
+        for row in rows:
+            fh.write((row if isinstance(row, str) else json.dumps(row)) + "\n")
+    return path
