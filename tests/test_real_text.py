@@ -24,7 +24,7 @@ SEEDS = (1, 2, 3)
 
 
 def _wordsim(wv: KeyedVectors) -> float:
-    pearson, spearman, oov = wv.evaluate_word_pairs(datapath("wordsim353.tsv"))
+    _pearson, spearman, _oov = wv.evaluate_word_pairs(datapath("wordsim353.tsv"))
     return float(spearman[0])
 
 

@@ -26,14 +26,36 @@ def normalise_rows(vectors: npt.ArrayLike) -> Matrix:
     return result
 
 
-def _top_k_rows(sims: Matrix, k: int) -> tuple[npt.NDArray[np.int32], Matrix]:
-    k = min(k, sims.shape[1])
-    part = np.argpartition(-sims, k - 1, axis=1)[:, :k]
-    part_sims = np.take_along_axis(sims, part, axis=1)
-    # Stable order: similarity descending, then index ascending for ties.
-    order = np.lexsort((part, -part_sims), axis=1)
-    idx = np.take_along_axis(part, order, axis=1)
-    return idx.astype(np.int32), np.take_along_axis(part_sims, order, axis=1).astype(np.float32)
+def _top_k_rows(sims: Matrix, k: int, stride: int = 8) -> tuple[npt.NDArray[np.int32], Matrix]:
+    """Exact top k of every row, ordered by similarity descending, then index ascending.
+
+    Selecting over whole rows costs more than the matrix product, so a cheaper bound goes
+    first: the k-th largest value of every `stride`-th column can only be smaller than or
+    equal to the k-th largest of the whole row, so entries below it can never make the top k.
+    Only the few entries at or above that bound (about k x stride a row) are sorted.
+    """
+    rows, width = sims.shape
+    k = min(k, width)
+    sub = sims[:, ::stride]
+    if sub.shape[1] < 2 * k:
+        part = np.argpartition(sims, width - k, axis=1)[:, width - k :]
+        part_sims = np.take_along_axis(sims, part, axis=1)
+        order = np.lexsort((part, -part_sims), axis=1)
+        idx = np.take_along_axis(part, order, axis=1)
+        return idx.astype(np.int32), np.take_along_axis(part_sims, order, axis=1).astype(np.float32)
+    bound = np.partition(sub, sub.shape[1] - k, axis=1)[:, sub.shape[1] - k]
+    row_of, col_of = np.nonzero(sims >= bound[:, None])  # row-major: columns ascend within a row
+    val_of = sims[row_of, col_of]
+    # One integer key, row ascending then similarity descending; a stable sort keeps the column
+    # order for ties. Float bits are mapped to unsigned integers that sort like the floats.
+    bits = val_of.view(np.uint32)
+    sortable = np.where(bits & 0x80000000, ~bits, bits | 0x80000000).astype(np.uint64)
+    key = (row_of.astype(np.uint64) << np.uint64(32)) | (np.uint64(0xFFFFFFFF) - sortable)
+    order = np.argsort(key, kind="stable")
+    starts = np.searchsorted(row_of[order], np.arange(rows))
+    take = order[(starts[:, None] + np.arange(k)[None, :]).ravel()]
+    idx = col_of[take].reshape(rows, k).astype(np.int32)
+    return idx, val_of[take].reshape(rows, k).astype(np.float32)
 
 
 def top_k_table(

@@ -17,9 +17,10 @@ import platform
 import shutil
 import sys
 import time
-from collections import Counter
+from collections import Counter, deque
 from collections.abc import Iterator
 from dataclasses import dataclass, field
+from multiprocessing.pool import AsyncResult
 from pathlib import Path
 from typing import IO, Any
 
@@ -96,8 +97,32 @@ class _Scratch:
         self.path = target
 
 
-def _tokenise_batch(batch: list[Posting]) -> list[tuple[Posting, list[list[list[str]]]]]:
-    return [(posting, [sentences(text) for text in posting.texts]) for posting in batch]
+@dataclass(frozen=True)
+class _Tokenised:
+    """One posting after tokenising: scratch lines ready to write, and what de-duplication needs."""
+
+    line: int
+    key: bytes
+    tokens: int
+    lines: str
+    protected: tuple[str, ...]
+
+
+def _tokenise_batch(batch: list[Posting], has_title: bool) -> list[_Tokenised]:
+    """Runs in a worker process; returns plain strings, which cross processes cheaply."""
+    out = []
+    for posting in batch:
+        rows: list[str] = []
+        flat: list[str] = []
+        for number, text in enumerate(posting.texts):
+            mark = "T" if number == 0 and has_title else "D"
+            for sent in sentences(text):
+                rows.append(f"{mark}\t{' '.join(sent)}\n")
+                flat.extend(sent)
+        key = hashlib.blake2b("\x1f".join(flat).encode("utf-8"), digest_size=12).digest()
+        protected = tuple(j for j in (PHRASE_JOINER.join(tokens(v)) for v in posting.protected) if j)
+        out.append(_Tokenised(posting.line, key, len(flat), "".join(rows), protected))
+    return out
 
 
 def _batched(corpus: PostingCorpus, size: int = 256) -> Iterator[list[Posting]]:
@@ -116,53 +141,54 @@ class _FirstPass:
 
     Iterating yields the sentences (for the first phrase pass) and, as a side effect, writes
     them to the scratch file as `T|D<TAB>tokens` lines (T for title). Tokenising runs in
-    `workers` processes while the caller (gensim Phrases) counts the previous batch.
+    `workers` processes while the caller (gensim Phrases) counts the batch before.
     """
 
     def __init__(self, corpus: PostingCorpus, scratch: Path, workers: int, out: IO[str]) -> None:
         self.corpus, self.scratch, self.workers, self.out = corpus, scratch, workers, out
         self.used = self.duplicates = self.tokens = 0
         self.protected: set[str] = set()
+        self.has_title = bool(corpus.config.fields) and corpus.config.fields[0] == "title"
 
-    def _tokenised(self) -> Iterator[tuple[Posting, list[list[list[str]]]]]:
+    def _tokenised(self) -> Iterator[_Tokenised]:
         if self.workers <= 1:
             for batch in _batched(self.corpus):
-                yield from _tokenise_batch(batch)
+                yield from _tokenise_batch(batch, self.has_title)
             return
+        # Submit a bounded number of batches ahead (Pool.imap would read the whole dump ahead
+        # of a slow consumer and hold it in memory).
+        ahead = 2 * self.workers
         with multiprocessing.get_context("fork").Pool(self.workers) as pool:
-            for done in pool.imap(_tokenise_batch, _batched(self.corpus), chunksize=1):
-                yield from done
+            pending: deque[AsyncResult[list[_Tokenised]]] = deque()
+            for batch in _batched(self.corpus):
+                pending.append(pool.apply_async(_tokenise_batch, (batch, self.has_title)))
+                if len(pending) >= ahead:
+                    yield from pending.popleft().get()
+            while pending:
+                yield from pending.popleft().get()
 
     def __iter__(self) -> Iterator[list[str]]:
         seen: set[bytes] = set()
-        has_title = bool(self.corpus.config.fields) and self.corpus.config.fields[0] == "title"
         with (
             Progress("read and tokenise", unit="postings", stream=self.out) as bar,
             self.scratch.open("w", encoding="utf-8") as fh,
         ):
-            for posting, per_text in self._tokenised():
+            for done in self._tokenised():
                 bar.update()
-                flat = [tok for text in per_text for sent in text for tok in sent]
-                if not flat:
-                    self.corpus.stats.skip("empty_text", posting.line)
+                if not done.tokens:
+                    self.corpus.stats.skip("empty_text", done.line)
                     continue
-                key = hashlib.blake2b("\x1f".join(flat).encode("utf-8"), digest_size=12).digest()
-                if key in seen:
+                if done.key in seen:
                     self.duplicates += 1
                     continue
-                seen.add(key)
+                seen.add(done.key)
                 self.used += 1
-                self.tokens += len(flat)
-                for number, text in enumerate(per_text):
-                    mark = "T" if number == 0 and has_title else "D"
-                    for sent in text:
-                        fh.write(f"{mark}\t{' '.join(sent)}\n")
-                        yield sent
+                self.tokens += done.tokens
+                fh.write(done.lines)
+                for row in done.lines.splitlines():
+                    yield row[2:].split()
                 if len(self.protected) < _MAX_PROTECTED:
-                    for value in posting.protected:
-                        joined = PHRASE_JOINER.join(tokens(value))
-                        if joined:
-                            self.protected.add(joined)
+                    self.protected.update(done.protected)
 
 
 def _check_bad_fraction(corpus: PostingCorpus, used: int, config: TrainConfig) -> None:

@@ -1,0 +1,244 @@
+"""`make bench`: speed and memory figures, each a ratio measured side by side in one run.
+
+Absolute times on a shared 2-core machine are noisy; a ratio of two things timed in the
+same run, alternating, is not. Results go to OUT/results.json and a Markdown table on stdout,
+which is what the README's benchmark section is copied from.
+
+    python bench/run.py --demo build/demo --out build/bench
+"""
+
+from __future__ import annotations
+
+import argparse
+import hashlib
+import json
+import os
+import platform
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+ROOT = Path(__file__).resolve().parent.parent
+sys.path.insert(0, str(ROOT))
+
+from demo_postings.generate import generate  # noqa: E402
+from training.bundle import Store, open_bundle  # noqa: E402
+from training.config import TrainConfig, load_config  # noqa: E402
+from training.corpus import PostingCorpus  # noqa: E402
+from training.neighbours import normalise_rows, top_k_table  # noqa: E402
+from training.tokenize import sentences  # noqa: E402
+
+
+def machine() -> str:
+    cpu = platform.processor() or platform.machine()
+    try:
+        for line in Path("/proc/cpuinfo").read_text().splitlines():
+            if line.startswith("model name"):
+                cpu = line.split(":", 1)[1].strip()
+                break
+    except OSError:
+        pass
+    mem = os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES") / 2**30
+    return f"{os.cpu_count()} cores ({cpu}), {mem:.0f} GiB, Python {platform.python_version()}, {platform.system()}"
+
+
+def _widen_train(corpus: Path, store: Path, config: Path) -> float:
+    started = time.perf_counter()
+    subprocess.run(
+        [
+            sys.executable,
+            "-m",
+            "service.cli",
+            "train",
+            "--corpus",
+            str(corpus),
+            "--store",
+            str(store),
+            "--config",
+            str(config),
+        ],
+        check=True,
+        cwd=ROOT,
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.DEVNULL,
+    )
+    return time.perf_counter() - started
+
+
+_BASELINE = r"""
+import json, sys, time
+from gensim.models import Word2Vec
+from gensim.models.phrases import Phrases
+cfg = json.loads(sys.argv[2])
+sents = [line.split() for line in open(sys.argv[1], encoding="utf-8")]
+started = time.perf_counter()
+p = cfg["phrases"]
+for _ in range(p["max_words"] - 1):
+    frozen = Phrases(sents, min_count=p["min_count"], threshold=p["threshold"], scoring=p["scoring"],
+                     connector_words=frozenset(p["connector_words"]), delimiter="_").freeze()
+    sents = [frozen[s] for s in sents]
+e = cfg["embedding"]
+Word2Vec(sents, sg=1, hs=0, negative=e["negative"], vector_size=e["vector_size"], window=e["window"],
+         min_count=e["min_count"], sample=e["sample"], alpha=e["alpha"], epochs=e["epochs"], seed=e["seed"],
+         workers=e["workers"])
+print(time.perf_counter() - started)
+"""
+
+
+def bench_pipeline(demo: Path, work: Path, config_path: Path, rounds: int = 3) -> dict[str, Any]:
+    """`widen train` against gensim alone on already tokenised sentences, both process wall times.
+
+    The baseline process imports gensim, reads the tokenised sentences into memory (a list, as
+    gensim's tutorials do) and runs the same phrase passes and Word2Vec; its training-only time
+    is reported too.
+    """
+    config = load_config(config_path)
+    tokenised = work / "tokenised.txt"
+    seen: set[bytes] = set()
+    with tokenised.open("w", encoding="utf-8") as fh:
+        for posting in PostingCorpus(demo / "postings.jsonl", config.corpus):
+            per_text = [sentences(t) for t in posting.texts]
+            key = hashlib.blake2b(
+                "\x1f".join(t for x in per_text for s in x for t in s).encode(), digest_size=12
+            ).digest()
+            if key in seen:
+                continue
+            seen.add(key)
+            for text in per_text:
+                for sent in text:
+                    fh.write(" ".join(sent) + "\n")
+    ours, theirs, inner = [], [], []
+    for round_ in range(rounds):
+        ours.append(_widen_train(demo / "postings.jsonl", work / f"store-{round_}", config_path))
+        started = time.perf_counter()
+        out = subprocess.run(
+            [sys.executable, "-c", _BASELINE, str(tokenised), config.model_dump_json()],
+            check=True,
+            capture_output=True,
+            text=True,
+        )
+        theirs.append(time.perf_counter() - started)
+        inner.append(float(out.stdout.strip()))
+    ratio = statistics.median(ours) / statistics.median(theirs)
+    return {
+        "widen_train_s": [round(x, 2) for x in ours],
+        "gensim_alone_s": [round(x, 2) for x in theirs],
+        "gensim_alone_training_only_s": [round(x, 2) for x in inner],
+        "ratio": round(ratio, 3),
+        "ratio_to_training_only": round(statistics.median(ours) / statistics.median(inner), 3),
+        "target": "<= 1.2",
+    }
+
+
+def bench_neighbours(store: Path) -> dict[str, Any]:
+    """Blocked matrix products against most_similar once per entry, on the demo bundle's vectors."""
+    bundle = open_bundle(Store(store))
+    wv = bundle.vectors
+    k = 50
+    started = time.perf_counter()
+    idx, sims = top_k_table(normalise_rows(wv.vectors), k)
+    blocked = time.perf_counter() - started
+    started = time.perf_counter()
+    identical = True
+    for i, key in enumerate(wv.index_to_key):
+        ref = wv.most_similar(key, topn=k)
+        ref_sims = np.array([s for _, s in ref], dtype=np.float32)
+        if not np.allclose(ref_sims, sims[i], atol=1e-5):
+            identical = False
+    one_by_one = time.perf_counter() - started
+    return {
+        "entries": len(wv),
+        "top_k": k,
+        "blocked_s": round(blocked, 4),
+        "most_similar_s": round(one_by_one, 4),
+        "speedup": round(one_by_one / blocked, 1),
+        "identical_similarities": identical,
+        "target": ">= 20",
+    }
+
+
+_PEAK = r"""
+import io, json, resource, sys
+from pathlib import Path
+from training.config import load_config
+from training.pipeline import train
+train(Path(sys.argv[1]), Path(sys.argv[2]), load_config(Path(sys.argv[3])), out=io.StringIO())
+# VmHWM is this process's own peak; ru_maxrss would carry over the parent's peak across exec.
+own = next(int(l.split()[1]) for l in open("/proc/self/status") if l.startswith("VmHWM:"))
+kids = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
+print(json.dumps({"main_kib": own, "largest_worker_kib": kids}))
+"""
+
+
+def bench_memory(demo: Path, work: Path, config_path: Path) -> dict[str, Any]:
+    """Peak RSS training on 4x the postings over 1x (generated with the same seed)."""
+    base = sum(1 for _ in (demo / "postings.jsonl").open(encoding="utf-8"))
+    results = {}
+    for factor in (1, 4):
+        folder = work / f"x{factor}"
+        generate(folder, base * factor, seed=7)
+        out = subprocess.run(
+            [
+                sys.executable,
+                "-c",
+                _PEAK,
+                str(folder / "postings.jsonl"),
+                str(work / f"mem-store-{factor}"),
+                str(config_path),
+            ],
+            check=True,
+            capture_output=True,
+            text=True,
+            cwd=ROOT,
+        )
+        results[factor] = json.loads(out.stdout.strip().splitlines()[-1])
+    return {
+        "postings_1x": base,
+        "peak_main_mib_1x": round(results[1]["main_kib"] / 1024, 1),
+        "peak_main_mib_4x": round(results[4]["main_kib"] / 1024, 1),
+        "peak_worker_mib_1x": round(results[1]["largest_worker_kib"] / 1024, 1),
+        "peak_worker_mib_4x": round(results[4]["largest_worker_kib"] / 1024, 1),
+        "ratio": round(results[4]["main_kib"] / results[1]["main_kib"], 3),
+        "target": "<= 1.25",
+    }
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("--demo", type=Path, default=ROOT / "build" / "demo")
+    parser.add_argument("--out", type=Path, default=ROOT / "build" / "bench")
+    parser.add_argument("--only", nargs="*", default=None, help="sections to run: pipeline neighbours memory")
+    args = parser.parse_args()
+    args.demo, args.out = args.demo.resolve(), args.out.resolve()
+    args.out.mkdir(parents=True, exist_ok=True)
+    config_path = args.out / "bench.toml"
+    config = TrainConfig()
+    config.gate.pairs = str(args.demo / "pairs.tsv")
+    config_path.write_text(config.to_toml(), encoding="utf-8")
+    results: dict[str, Any] = {"machine": machine(), "date": time.strftime("%Y-%m-%d")}
+    wanted = set(args.only or ["pipeline", "neighbours", "memory"])
+    with tempfile.TemporaryDirectory(prefix="widen-bench-") as tmp:
+        work = Path(tmp)
+        if "pipeline" in wanted:
+            print("pipeline overhead ...", file=sys.stderr)
+            results["pipeline"] = bench_pipeline(args.demo, work, config_path)
+        if "neighbours" in wanted:
+            print("neighbour table ...", file=sys.stderr)
+            store = work / "nbr-store"
+            _widen_train(args.demo / "postings.jsonl", store, config_path)
+            results["neighbours"] = bench_neighbours(store)
+        if "memory" in wanted:
+            print("memory 1x / 4x ...", file=sys.stderr)
+            results["memory"] = bench_memory(args.demo, work, config_path)
+    (args.out / "results.json").write_text(json.dumps(results, indent=2) + "\n", encoding="utf-8")
+    print(json.dumps(results, indent=2))
+
+
+if __name__ == "__main__":
+    main()
