@@ -52,6 +52,7 @@ FORMAT_VERSION = 1
 
 MANIFEST = "manifest.json"
 VECTORS = "vectors.kv"
+NORMED_VECTORS = "normed_vectors.npy"
 OUTPUT_VECTORS = "output_vectors.npy"
 NEIGHBOURS_INDEX = "neighbours_index.npy"
 NEIGHBOURS_SIMILARITY = "neighbours_similarity.npy"
@@ -186,7 +187,15 @@ class Store:
         folder = self.bundle_dir(version)
         problems = []
         files = manifest.get("files") or {}
-        for name in (VECTORS, OUTPUT_VECTORS, NEIGHBOURS_INDEX, NEIGHBOURS_SIMILARITY, PHRASES, PROTECTED):
+        for name in (
+            VECTORS,
+            NORMED_VECTORS,
+            OUTPUT_VECTORS,
+            NEIGHBOURS_INDEX,
+            NEIGHBOURS_SIMILARITY,
+            PHRASES,
+            PROTECTED,
+        ):
             if name not in files:
                 problems.append(f"bundle {version}: manifest lists no {name}")
         for name, expected in files.items():
@@ -355,6 +364,7 @@ class Bundle:
         self.created_at: str = self.manifest["created_at"]
         try:
             self.vectors = KeyedVectors.load(str(self.folder / VECTORS), mmap="r")
+            self.normed_vectors: npt.NDArray[np.float32] = np.load(self.folder / NORMED_VECTORS, mmap_mode="r")
             self.output_vectors: npt.NDArray[np.float32] = np.load(self.folder / OUTPUT_VECTORS, mmap_mode="r")
             self.neighbour_index: npt.NDArray[np.int32] = np.load(self.folder / NEIGHBOURS_INDEX, mmap_mode="r")
             self.neighbour_similarity: npt.NDArray[np.float32] = np.load(

@@ -326,6 +326,7 @@ def train(
 
             t = time.monotonic()
             normed = normalise_rows(wv.vectors)
+            np.save(work / layout.NORMED_VECTORS, normed)
             with Progress("neighbour table", total=len(wv), unit="entries", stream=out) as bar:
                 nbr_idx, nbr_sim = top_k_table(
                     normed, config.neighbours.top_k, config.neighbours.block_rows, bar.update
