@@ -13,7 +13,12 @@ import sys
 from collections.abc import Callable, Sequence
 from pathlib import Path
 
-from training.bundle import BundleError, Store, StoreBusy
+from pydantic import ValidationError
+
+from service.decisions import DecisionError, DecisionStore
+from service.expansion import ExpansionOptions, Lexicon, expand
+from service.result import ExpansionResult
+from training.bundle import BundleError, Store, StoreBusy, open_bundle
 from training.config import ConfigError, load_config
 from training.pipeline import EXIT_BAD_INPUT, EXIT_FAILURE, EXIT_OK, BadInput, summary, train
 
@@ -88,7 +93,156 @@ def _parser() -> argparse.ArgumentParser:
     )
     p.add_argument("--store", type=Path, required=True)
     p.set_defaults(handler=_rollback)
+
+    p = sub.add_parser(
+        "expand",
+        help="show what a query expands to with the current bundle and the reviewer decisions",
+        formatter_class=_Formatter,
+        epilog="examples:\n  widen expand 'lorry driver' --store build/store\n"
+        "  widen expand 'night shift staff nurse hensby' --store build/store --explain\n"
+        "  widen expand '\"class 1 driver\"' --store build/store --json --max 3",
+    )
+    p.add_argument("query")
+    p.add_argument("--store", type=Path, required=True)
+    p.add_argument("--bundle", help="a bundle version other than the current one")
+    p.add_argument("--json", action="store_true", help="the result as JSON (the API's result model)")
+    p.add_argument("--explain", action="store_true", help="also list the dropped neighbours and why")
+    p.add_argument("--max", type=int, help="at most this many expansions a segment (default 5)")
+    p.add_argument("--min-similarity", type=float, help="drop neighbours below this cosine (default 0.7)")
+    p.add_argument("--strict", action="store_true", help="leave out neighbours hinted as a related, different job")
+    p.set_defaults(handler=_expand)
+
+    p = sub.add_parser(
+        "decide",
+        help="record a reviewer decision: block, pin, never, or undo one",
+        formatter_class=_Formatter,
+        description="Decisions apply at query time at once, without a retrain, and survive retrains.",
+        epilog="examples:\n"
+        "  widen decide block 'staff nurse' 'care' --store build/store --reviewer ana --note 'not a job title'\n"
+        "  widen decide pin 'rn' 'staff nurse' --weight 0.45 --store build/store --reviewer ana\n"
+        "  widen decide never 'hensby' --store build/store --reviewer ana\n"
+        "  widen decide undo 3 --store build/store --reviewer ana",
+    )
+    p.add_argument("action", choices=["block", "pin", "never", "undo"])
+    p.add_argument("target", help="the phrase (for undo: the decision id)")
+    p.add_argument("neighbour", nargs="?", help="the neighbour phrase (block and pin)")
+    p.add_argument("--store", type=Path, required=True)
+    p.add_argument("--reviewer", required=True, help="who decides (recorded)")
+    p.add_argument("--note", help="why (recorded)")
+    p.add_argument("--weight", type=float, help="pin: the boost, above 0 and below 1")
+    p.set_defaults(handler=_decide)
+
+    p = sub.add_parser(
+        "decisions",
+        help="list, export or import the reviewer decisions of a store",
+        formatter_class=_Formatter,
+        epilog="examples:\n  widen decisions --store build/store\n  widen decisions --store build/store --json\n"
+        "  widen decisions --store build/store --export decisions.json\n"
+        "  widen decisions --store /srv/widen/store --import decisions.json --reviewer ana",
+    )
+    p.add_argument("--store", type=Path, required=True)
+    p.add_argument("--json", action="store_true")
+    p.add_argument("--all", action="store_true", help="include withdrawn decisions")
+    p.add_argument("--export", type=Path, metavar="FILE", help="write the active decisions as JSON")
+    p.add_argument("--import", dest="import_file", type=Path, metavar="FILE", help="add the decisions of an export")
+    p.add_argument("--reviewer", help="with --import: who imports (recorded)")
+    p.set_defaults(handler=_decisions)
     return parser
+
+
+def _expand(args: argparse.Namespace) -> int:
+    store = Store(args.store)
+    lexicon = Lexicon(open_bundle(store, args.bundle))
+    overrides: dict[str, object] = {"explain": args.explain, "strict": args.strict}
+    if args.max is not None:
+        overrides["max_per_segment"] = args.max
+    if args.min_similarity is not None:
+        overrides["min_similarity"] = args.min_similarity
+    try:
+        options = ExpansionOptions.model_validate(overrides)
+    except ValidationError as exc:
+        raise BadInput(str(exc.errors()[0]["msg"]) + f" ({exc.errors()[0]['loc'][0]})") from exc
+    result = expand(lexicon, DecisionStore(store.decisions_path).snapshot(), args.query, options)
+    if args.json:
+        print(result.model_dump_json(indent=2, exclude_none=True))
+        return EXIT_OK
+    print(render_table(result))
+    return EXIT_OK
+
+
+def _decide(args: argparse.Namespace) -> int:
+    decisions = DecisionStore(Store(args.store).decisions_path)
+    try:
+        if args.action == "undo":
+            if not args.target.isdigit():
+                raise BadInput("undo takes a decision id (see widen decisions)")
+            d = decisions.withdraw(int(args.target), args.reviewer, args.note)
+            print(f"withdrew decision {d.id}: {d.action} {d.phrase}" + (f" -> {d.neighbour}" if d.neighbour else ""))
+            return EXIT_OK
+        d = decisions.add(args.target, args.action, args.reviewer, args.neighbour, args.weight, args.note)
+    except DecisionError as exc:
+        raise BadInput(str(exc)) from exc
+    print(f"decision {d.id}: {d.action} {d.phrase}" + (f" -> {d.neighbour}" if d.neighbour else ""))
+    return EXIT_OK
+
+
+def _decisions(args: argparse.Namespace) -> int:
+    decisions = DecisionStore(Store(args.store).decisions_path)
+    if args.import_file:
+        if not args.reviewer:
+            raise BadInput("--import needs --reviewer")
+        try:
+            data = json.loads(args.import_file.read_text(encoding="utf-8"))
+            added = decisions.import_(data, args.reviewer)
+        except (OSError, json.JSONDecodeError, DecisionError) as exc:
+            raise BadInput(f"cannot import {args.import_file}: {exc}") from exc
+        print(f"imported {added} decision(s)")
+        return EXIT_OK
+    if args.export:
+        args.export.write_text(json.dumps(decisions.export(), indent=2, ensure_ascii=False) + "\n", encoding="utf-8")
+        print(f"wrote {len(decisions.entries())} decision(s) to {args.export}")
+        return EXIT_OK
+    listed = decisions.entries(include_withdrawn=args.all)
+    if args.json:
+        print(json.dumps([d.as_dict() for d in listed], indent=2, ensure_ascii=False))
+        return EXIT_OK
+    if not listed:
+        print("no decisions")
+        return EXIT_OK
+    rows = [("id", "action", "phrase", "neighbour", "weight", "reviewer", "when", "note")]
+    for d in listed:
+        when = d.created_at + (f" (withdrawn {d.withdrawn_at} by {d.withdrawn_by})" if d.withdrawn_at else "")
+        weight = "" if d.weight is None else f"{d.weight:.2f}"
+        rows.append((str(d.id), d.action, d.phrase, d.neighbour or "", weight, d.reviewer, when, d.note or ""))
+    print(_table(rows))
+    return EXIT_OK
+
+
+def _table(rows: Sequence[Sequence[str]]) -> str:
+    widths = [max(len(r[c]) for r in rows) for c in range(len(rows[0]))]
+    return "\n".join("  ".join(cell.ljust(w) for cell, w in zip(row, widths, strict=True)).rstrip() for row in rows)
+
+
+def render_table(result: ExpansionResult) -> str:
+    """The readable form of an expansion: one row a clause, then what was dropped and why."""
+    lines = [f"model {result.model.version} ({result.model.created_at})", ""]
+    rows: list[tuple[str, ...]] = [("segment", "kind", "phrase", "similarity", "weight", "relation", "source")]
+    for seg in result.segments:
+        rows.append((seg.text, seg.kind, seg.text, "", "1", "original", ""))
+        for e in seg.expansions:
+            rows.append(("", "", e.phrase, f"{e.similarity:.3f}", f"{e.weight:.3f}", e.relation, e.source))
+    lines.append(_table(rows))
+    dropped = [(seg.text, d) for seg in result.segments for d in (seg.dropped or [])]
+    if dropped:
+        lines += ["", "dropped:"]
+        lines.append(
+            _table(
+                [("segment", "phrase", "similarity", "reason")]
+                + [(s, d.phrase, f"{d.similarity:.3f}", d.reason) for s, d in dropped]
+            )
+        )
+    lines += ["", "query text:", result.query_text]
+    return "\n".join(lines)
 
 
 def _train(args: argparse.Namespace) -> int:
@@ -126,9 +280,7 @@ def _bundles(args: argparse.Namespace) -> int:
         )
         for i in infos
     ]
-    widths = [max(len(r[c]) for r in [header, *rows]) for c in range(len(header))]
-    for row in [header, *rows]:
-        print("  ".join(cell.ljust(w) for cell, w in zip(row, widths, strict=True)).rstrip())
+    print(_table([header, *rows]))
     return EXIT_OK
 
 

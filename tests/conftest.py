@@ -15,7 +15,7 @@ from demo_postings.generate import generate
 from training.config import TrainConfig, load_config
 from training.pipeline import TrainOutcome, train
 
-SMALL_POSTINGS = 4000
+SMALL_POSTINGS = 8000
 IN_CI = os.environ.get("CI") == "true"
 
 

@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 
 from service.cli import main
-from tests.conftest import demo_config, train_quietly
+from tests.conftest import SMALL_POSTINGS, demo_config, train_quietly
 from training.bundle import Store, open_bundle
 from training.config import ConfigError, load_config
 from training.pipeline import EXIT_REFUSED
@@ -30,8 +30,8 @@ def test_bundle_manifest_describes_the_bundle(trained_store: Path) -> None:
     manifest = store.manifest(version)
     assert manifest["format_version"] == 1 and manifest["version"] == version
     corpus = manifest["corpus"]
-    assert corpus["postings_read"] == 4000
-    assert corpus["postings_used"] + corpus["duplicates"] == 4000
+    assert corpus["postings_read"] == SMALL_POSTINGS
+    assert corpus["postings_used"] + corpus["duplicates"] == SMALL_POSTINGS
     assert len(corpus["sha256"]) == 64
     assert manifest["config"]["embedding"]["vector_size"] == 100  # defaults are written out
     assert manifest["gate"]["passed"] is True and manifest["gate"]["forced"] is False

@@ -1,0 +1,142 @@
+"""Reviewer decisions: they change expansions at once, survive retrains, and lose nothing."""
+
+from __future__ import annotations
+
+import json
+import multiprocessing
+import sqlite3
+from pathlib import Path
+
+import pytest
+
+from service.cli import main
+from service.decisions import DecisionError, DecisionStore
+from service.expansion import ExpansionOptions, Lexicon, expand
+from tests.conftest import demo_config, train_quietly
+from training.bundle import Store, open_bundle
+
+OPTIONS = ExpansionOptions()
+
+
+def _phrases(store: Path, query: str) -> dict[str, float]:
+    lexicon = Lexicon(open_bundle(Store(store)))
+    snapshot = DecisionStore(Store(store).decisions_path).snapshot()
+    result = expand(lexicon, snapshot, query, OPTIONS)
+    return {e.phrase: e.weight for s in result.segments for e in s.expansions}
+
+
+def test_block_pin_never_and_undo_change_the_result(store_copy: Path) -> None:
+    decisions = DecisionStore(Store(store_copy).decisions_path)
+    before = _phrases(store_copy, "kitchen porter")
+    victim = next(iter(before))
+    blocked = decisions.add("kitchen porter", "block", "ana", neighbour=victim, note="checking")
+    assert victim not in _phrases(store_copy, "kitchen porter")
+
+    pin = decisions.add("kitchen porter", "pin", "ana", neighbour="pot wash assistant", weight=0.45)
+    pinned = _phrases(store_copy, "kitchen porter")
+    assert pinned["pot wash assistant"] == 0.45  # not in the vocabulary: a pin needs no model
+    assert len(pinned) <= OPTIONS.max_per_segment
+
+    never = decisions.add("Kitchen Porter", "never", "ben", note="too broad for our board")
+    assert _phrases(store_copy, "kitchen porter") == {}
+
+    decisions.withdraw(never.id, "ben")
+    decisions.withdraw(pin.id, "ana")
+    decisions.withdraw(blocked.id, "ana")
+    assert _phrases(store_copy, "kitchen porter") == before
+    events = [(a["decision_id"], a["event"]) for a in decisions.audit()]
+    assert events == [(1, "made"), (2, "made"), (3, "made"), (3, "withdrawn"), (2, "withdrawn"), (1, "withdrawn")]
+
+
+def test_decisions_survive_a_retrain(store_copy: Path, demo_dir: Path) -> None:
+    decisions = DecisionStore(Store(store_copy).decisions_path)
+    victim = next(iter(_phrases(store_copy, "lorry driver")))
+    decisions.add("lorry driver", "block", "ana", neighbour=victim)
+    old = Store(store_copy).current_version()
+    outcome = train_quietly(demo_dir / "postings.jsonl", store_copy, demo_config(demo_dir, **{"embedding.seed": 8}))
+    assert outcome.promoted and Store(store_copy).current_version() != old
+    assert victim not in _phrases(store_copy, "lorry driver")
+
+
+@pytest.mark.parametrize(
+    "args, message",
+    [
+        (("staff nurse", "block", "ana"), "needs a neighbour"),
+        (("staff nurse", "pin", "ana", "rn", 1.0), "between 0 and 1"),
+        (("staff nurse", "pin", "ana", "rn", None), "between 0 and 1"),
+        (("staff nurse", "never", "ana", "rn"), "leave the neighbour out"),
+        (("staff nurse", "block", "ana", "rn", 0.3), "takes no weight"),
+        (("staff nurse", "block", " ", "rn"), "reviewer is required"),
+        (("...", "never", "ana"), "no words"),
+        (("rn", "block", "ana", "RN"), "its own neighbour"),
+        (("rn", "delete", "ana"), "action must be"),
+    ],
+)
+def test_bad_decisions_are_refused(tmp_path: Path, args: tuple[object, ...], message: str) -> None:
+    with pytest.raises(DecisionError, match=message):
+        DecisionStore(tmp_path / "d.sqlite").add(*args)  # type: ignore[arg-type]
+
+
+def test_database_is_in_wal_mode(tmp_path: Path) -> None:
+    path = tmp_path / "d.sqlite"
+    DecisionStore(path).add("rn", "never", "ana")
+    with sqlite3.connect(path) as conn:
+        assert conn.execute("PRAGMA journal_mode").fetchone()[0] == "wal"
+
+
+def _writer(path: str, reviewer: str, count: int) -> None:
+    store = DecisionStore(Path(path))
+    for i in range(count):
+        store.add(f"phrase {reviewer} {i}", "never", reviewer)
+
+
+def test_two_processes_writing_at_once_lose_nothing(tmp_path: Path) -> None:
+    path = tmp_path / "d.sqlite"
+    DecisionStore(path).add("rn", "never", "setup")
+    procs = [multiprocessing.get_context("spawn").Process(target=_writer, args=(str(path), r, 60)) for r in ("a", "b")]
+    for p in procs:
+        p.start()
+    for p in procs:
+        p.join(60)
+        assert p.exitcode == 0
+    assert len(DecisionStore(path).entries()) == 121
+    assert len(DecisionStore(path).audit()) == 121
+
+
+def test_export_and_import_round_trip(tmp_path: Path) -> None:
+    source = DecisionStore(tmp_path / "a.sqlite")
+    source.add("staff nurse", "pin", "ana", neighbour="rn", weight=0.4, note="same job")
+    source.add("hensby", "never", "ana")
+    target = DecisionStore(tmp_path / "b.sqlite")
+    assert target.import_(source.export(), "ben") == 2
+    got = [(d.phrase, d.action, d.neighbour, d.weight) for d in target.entries()]
+    assert got == [("staff nurse", "pin", "rn", 0.4), ("hensby", "never", None, None)]
+    assert "imported from decision 1 by ana" in (target.entries()[0].note or "")
+    bad = source.export()
+    bad["decisions"].append({"phrase": "kp", "action": "pin", "neighbour": "pot washer", "weight": 7})
+    with pytest.raises(DecisionError, match="decision 3"):
+        target.import_(bad, "ben")
+    assert len(target.entries()) == 2  # all or nothing
+
+
+def test_cli_decide_decisions_and_expand(store_copy: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    s = str(store_copy)
+    assert main(["decide", "pin", "rn", "staff nurse", "--weight", "0.45", "--store", s, "--reviewer", "ana"]) == 0
+    assert main(["decide", "pin", "rn", "staff nurse", "--weight", "1.5", "--store", s, "--reviewer", "ana"]) == 2
+    assert main(["decisions", "--store", s, "--json"]) == 0
+    out = capsys.readouterr().out
+    listed = json.loads(out[out.index("[") :])
+    assert [(d["action"], d["phrase"], d["neighbour"]) for d in listed] == [("pin", "rn", "staff nurse")]
+    assert main(["expand", "rn", "--store", s, "--json"]) == 0
+    result = json.loads(capsys.readouterr().out)
+    pinned = [e for e in result["segments"][0]["expansions"] if e["source"] == "pinned"]
+    assert [(e["phrase"], e["weight"], e["relation"]) for e in pinned] == [("staff nurse", 0.45, "equivalent")]
+    assert 0.5 < pinned[0]["similarity"] < 1.0  # the model's own cosine, shown beside the pin
+    assert main(["expand", "lorry driver", "--store", s, "--explain"]) == 0
+    table = capsys.readouterr().out
+    assert "dropped:" in table and "broader_than_original" in table and "query text:" in table
+    export = tmp_path / "decisions.json"
+    assert main(["decisions", "--store", s, "--export", str(export)]) == 0
+    assert main(["decide", "undo", "1", "--store", s, "--reviewer", "ana"]) == 0
+    assert main(["decisions", "--store", s, "--import", str(export), "--reviewer", "ben"]) == 0
+    assert "imported 1 decision" in capsys.readouterr().out

@@ -1,0 +1,107 @@
+"""query_text against a real search engine's parser: tantivy (from PyPI), the reference for the syntax."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+import tantivy
+
+from service.decisions import DecisionSet
+from service.expansion import ExpansionOptions, Lexicon, expand
+from training.bundle import Store, open_bundle
+from training.tokenize import tokens
+
+HOSTILE = [
+    '"',
+    '""',
+    '"staff nurse',
+    "staff \\ nurse",
+    "\\",
+    "rn^2",
+    "^",
+    "title:rn",
+    ":",
+    "[hca TO kp]",
+    "{kp}",
+    "((((",
+    "))",
+    "(lorry driver",
+    "lorry driver)",
+    "AND",
+    "OR OR NOT",
+    "-rn +hca",
+    "kitchen\x00porter",
+    "\x07\x1b[31m hca",
+    "nurse*",
+    "driver~2",
+    "a&e nurse 24/7",
+    "c++ c# .net",
+    "\u202e rn \u202c",
+    "x" * 300,
+]
+
+
+@pytest.fixture(scope="module")
+def lexicon(trained_store: Path) -> Lexicon:
+    return Lexicon(open_bundle(Store(trained_store)))
+
+
+@pytest.fixture(scope="module")
+def index(demo_dir: Path, tmp_path_factory: pytest.TempPathFactory) -> tantivy.Index:
+    builder = tantivy.SchemaBuilder()
+    builder.add_text_field("id", stored=True, tokenizer_name="raw")
+    builder.add_text_field("title", stored=True)
+    builder.add_text_field("description")
+    idx = tantivy.Index(builder.build(), path=str(tmp_path_factory.mktemp("tantivy")))
+    writer = idx.writer(heap_size=50_000_000, num_threads=1)
+    with (demo_dir / "postings.jsonl").open(encoding="utf-8") as fh:
+        for line in fh:
+            p = json.loads(line)
+            writer.add_document(tantivy.Document(id=p["id"], title=p["title"], description=p["description"]))
+    writer.commit()
+    writer.wait_merging_threads()
+    idx.reload()
+    return idx
+
+
+def _search(index: tantivy.Index, text: str, limit: int = 10_000) -> list[str]:
+    query = index.parse_query(text, ["title", "description"])
+    searcher = index.searcher()
+    return [searcher.doc(address)["id"][0] for _, address in searcher.search(query, limit).hits]
+
+
+def test_every_demo_query_parses(lexicon: Lexicon, index: tantivy.Index, demo_dir: Path) -> None:
+    with (demo_dir / "queries.jsonl").open(encoding="utf-8") as fh:
+        queries = [json.loads(line)["query"] for line in fh]
+    assert len(queries) > 100
+    for q in queries:
+        text = expand(lexicon, DecisionSet(), q, ExpansionOptions()).query_text
+        index.parse_query(text, ["title", "description"])  # raises ValueError on a syntax error
+
+
+@pytest.mark.parametrize("hostile", HOSTILE)
+def test_hostile_input_cannot_break_the_parser(lexicon: Lexicon, index: tantivy.Index, hostile: str) -> None:
+    text = expand(lexicon, DecisionSet(), hostile, ExpansionOptions()).query_text
+    if not tokens(hostile):
+        assert text == ""
+        return
+    index.parse_query(text, ["title", "description"])
+    # Nothing typed becomes an operator: every clause is a quoted phrase with a boost.
+    assert "title:" not in text and "~" not in text and "*" not in text
+
+
+def test_expanded_query_finds_postings_that_use_another_name(lexicon: Lexicon, index: tantivy.Index) -> None:
+    result = expand(lexicon, DecisionSet(), "lorry driver", ExpansionOptions())
+    assert "hgv driver" in result.query_text
+    plain = set(_search(index, '"lorry driver"'))
+    expanded = set(_search(index, result.query_text))
+    hgv_only = set(_search(index, '"hgv driver"')) - plain
+    assert plain <= expanded  # every exact match is still found
+    assert hgv_only and hgv_only <= expanded  # and the postings that only say "hgv driver"
+    # The seeker's own words rank first: every exact match outranks every posting found only by expansion.
+    ranked = _search(index, result.query_text)
+    last_exact = max(ranked.index(pid) for pid in plain)
+    first_other = min(ranked.index(pid) for pid in expanded - plain)
+    assert last_exact < first_other or len(plain) == 0
