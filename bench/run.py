@@ -175,6 +175,50 @@ def bench_neighbours(store: Path) -> dict[str, Any]:
     return {"demo": demo, "synthetic_20000": large, "target": ">= 20"}
 
 
+def _median_us(fn: Any, runs: int) -> float:
+    times = []
+    for _ in range(runs):
+        started = time.perf_counter()
+        fn()
+        times.append(time.perf_counter() - started)
+    return round(statistics.median(times) * 1e6, 1)
+
+
+def bench_expansion(store: Path, demo: Path) -> dict[str, Any]:
+    """Expansion in-process: a known phrase (cache off), a multi-segment query, a cache hit, composed search."""
+    from service.cache import ResultCache
+    from service.decisions import DecisionSet
+    from service.expansion import ExpansionOptions, Lexicon, expand
+    from service.scorecard import scorecard
+    from training.neighbours import top_k_for_vector
+
+    lexicon = Lexicon(open_bundle(Store(store)))
+    options, none = ExpansionOptions(), DecisionSet()
+    for q in ("staff nurse", "night shift staff nurse hensby"):
+        expand(lexicon, none, q, options)  # warm the per-entry memo, as a serving worker would be
+    cache = ResultCache(1000)
+    key = (lexicon.version, none.version, "staff nurse", options)
+    cache.put(key, expand(lexicon, none, "staff nurse", options))
+    rng = np.random.default_rng(0)
+    big = normalise_rows(rng.normal(size=(100_000, 100)))
+    queries = normalise_rows(rng.normal(size=(50, 100)))
+    counter = iter(range(10**9))
+    truth = json.loads((demo / "truth.json").read_text(encoding="utf-8"))
+    card = scorecard(lexicon, truth, options)
+    return {
+        "known_phrase_median_us": _median_us(lambda: expand(lexicon, none, "staff nurse", options), 3000),
+        "multi_segment_median_us": _median_us(
+            lambda: expand(lexicon, none, "night shift staff nurse hensby", options), 2000
+        ),
+        "cache_hit_median_us": _median_us(lambda: cache.get(key), 3000),
+        "composed_search_100k_median_ms": round(
+            _median_us(lambda: top_k_for_vector(big, queries[next(counter) % 50], 50), 200) / 1000, 3
+        ),
+        "targets": {"known_phrase_median_us": "<= 200", "composed_search_100k_median_ms": "<= 5"},
+        "truth": {k: round(v, 3) if isinstance(v, float) else v for k, v in card.items() if k != "families"},
+    }
+
+
 _PEAK = r"""
 import io, json, resource, sys
 from pathlib import Path
@@ -225,7 +269,7 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("--demo", type=Path, default=ROOT / "build" / "demo")
     parser.add_argument("--out", type=Path, default=ROOT / "build" / "bench")
-    parser.add_argument("--only", nargs="*", default=None, help="sections to run: pipeline neighbours memory")
+    parser.add_argument("--only", nargs="*", default=None, help="sections: pipeline neighbours memory expansion")
     args = parser.parse_args()
     args.demo, args.out = args.demo.resolve(), args.out.resolve()
     args.out.mkdir(parents=True, exist_ok=True)
@@ -234,7 +278,7 @@ def main() -> None:
     config.gate.pairs = str(args.demo / "pairs.tsv")
     config_path.write_text(config.to_toml(), encoding="utf-8")
     results: dict[str, Any] = {"machine": machine(), "date": time.strftime("%Y-%m-%d")}
-    wanted = set(args.only or ["pipeline", "neighbours", "memory"])
+    wanted = set(args.only or ["pipeline", "neighbours", "memory", "expansion"])
     with tempfile.TemporaryDirectory(prefix="widen-bench-") as tmp:
         work = Path(tmp)
         if "pipeline" in wanted:
@@ -245,6 +289,11 @@ def main() -> None:
             store = work / "nbr-store"
             _widen_train(args.demo / "postings.jsonl", store, config_path)
             results["neighbours"] = bench_neighbours(store)
+        if "expansion" in wanted:
+            print("expansion ...", file=sys.stderr)
+            store = work / "exp-store"
+            _widen_train(args.demo / "postings.jsonl", store, config_path)
+            results["expansion"] = bench_expansion(store, args.demo)
         if "memory" in wanted:
             print("memory 1x / 4x ...", file=sys.stderr)
             results["memory"] = bench_memory(args.demo, work, config_path)

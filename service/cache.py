@@ -6,9 +6,11 @@ import threading
 from collections import OrderedDict
 from collections.abc import Hashable
 
+from service.decisions import DecisionSet
+from service.expansion import ExpansionOptions, Lexicon, expand
 from service.result import ExpansionResult
 
-__all__ = ["ResultCache"]
+__all__ = ["ResultCache", "cached_expand"]
 
 
 class ResultCache:
@@ -41,3 +43,15 @@ class ResultCache:
             self._items.move_to_end(key)
             while len(self._items) > self.size:
                 self._items.popitem(last=False)
+
+
+def cached_expand(
+    cache: ResultCache, lexicon: Lexicon, decisions: DecisionSet, query: str, options: ExpansionOptions
+) -> ExpansionResult:
+    """`expand` through the cache; a new bundle or any decision change gives new keys."""
+    key = (lexicon.version, decisions.version, query, options)
+    found = cache.get(key)
+    if found is None:
+        found = expand(lexicon, decisions, query, options)
+        cache.put(key, found)
+    return found

@@ -202,3 +202,21 @@ def test_original_boost_scales_every_clause(lexicon: Lexicon) -> None:
 def test_operator_joins_segments(lexicon: Lexicon) -> None:
     text = expand(lexicon, NONE, "kitchen porter hensby", ExpansionOptions(operator="OR")).query_text
     assert ' OR "hensby"^1' in text and " AND " not in text
+
+
+def test_cache_returns_the_same_result_and_keys_on_decisions(lexicon: Lexicon) -> None:
+    from service.cache import ResultCache, cached_expand
+    from service.decisions import DecisionSet
+
+    cache = ResultCache(2)
+    first = cached_expand(cache, lexicon, NONE, "kitchen porter", DEFAULTS)
+    assert cached_expand(cache, lexicon, NONE, "kitchen porter", DEFAULTS) is first
+    assert (cache.hits, cache.misses) == (1, 1)
+    # A change of decisions is a new key, never a stale hit.
+    cached_expand(cache, lexicon, DecisionSet(version=7), "kitchen porter", DEFAULTS)
+    assert cache.misses == 2
+    cached_expand(cache, lexicon, NONE, "rn", DEFAULTS)  # evicts the least recently used: the first
+    assert cache.get((lexicon.version, 7, "kitchen porter", DEFAULTS)) is not None
+    again = cached_expand(cache, lexicon, NONE, "kitchen porter", DEFAULTS)
+    assert again is not first and again == first
+    assert ResultCache(0).get("anything") is None
