@@ -5,6 +5,7 @@ from __future__ import annotations
 import threading
 from collections import OrderedDict
 from collections.abc import Hashable
+from typing import Generic, TypeVar
 
 from service.decisions import DecisionSet
 from service.expansion import ExpansionOptions, Lexicon, expand
@@ -12,18 +13,20 @@ from service.result import ExpansionResult
 
 __all__ = ["ResultCache", "cached_expand"]
 
+V = TypeVar("V")
 
-class ResultCache:
+
+class ResultCache(Generic[V]):
     """Thread-safe LRU. Parameters: `size`, entries kept (0 turns the cache off)."""
 
     def __init__(self, size: int) -> None:
         self.size = size
         self.hits = 0
         self.misses = 0
-        self._items: OrderedDict[Hashable, ExpansionResult] = OrderedDict()
+        self._items: OrderedDict[Hashable, V] = OrderedDict()
         self._lock = threading.Lock()
 
-    def get(self, key: Hashable) -> ExpansionResult | None:
+    def get(self, key: Hashable) -> V | None:
         if self.size <= 0:
             return None
         with self._lock:
@@ -35,7 +38,7 @@ class ResultCache:
             self.hits += 1
             return found
 
-    def put(self, key: Hashable, value: ExpansionResult) -> None:
+    def put(self, key: Hashable, value: V) -> None:
         if self.size <= 0:
             return
         with self._lock:
@@ -46,7 +49,7 @@ class ResultCache:
 
 
 def cached_expand(
-    cache: ResultCache, lexicon: Lexicon, decisions: DecisionSet, query: str, options: ExpansionOptions
+    cache: ResultCache[ExpansionResult], lexicon: Lexicon, decisions: DecisionSet, query: str, options: ExpansionOptions
 ) -> ExpansionResult:
     """`expand` through the cache; a new bundle or any decision change gives new keys."""
     key = (lexicon.version, decisions.version, query, options)

@@ -95,6 +95,21 @@ def _parser() -> argparse.ArgumentParser:
     p.set_defaults(handler=_rollback)
 
     p = sub.add_parser(
+        "serve",
+        help="serve the expansion API over HTTP",
+        formatter_class=_Formatter,
+        description="Every setting can also come from the environment (WIDEN_STORE, WIDEN_PORT, "
+        "WIDEN_ADMIN_TOKEN, ...; see the README). Binds 127.0.0.1 unless told otherwise.",
+        epilog="examples:\n  widen serve --store build/store\n"
+        "  WIDEN_ADMIN_TOKEN=s3cret widen serve --store /srv/widen/store --host 0.0.0.0 --port 8080 --workers 2",
+    )
+    p.add_argument("--store", type=Path)
+    p.add_argument("--host")
+    p.add_argument("--port", type=int)
+    p.add_argument("--workers", type=int)
+    p.set_defaults(handler=_serve)
+
+    p = sub.add_parser(
         "expand",
         help="show what a query expands to with the current bundle and the reviewer decisions",
         formatter_class=_Formatter,
@@ -148,6 +163,38 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("--reviewer", help="with --import: who imports (recorded)")
     p.set_defaults(handler=_decisions)
     return parser
+
+
+def _serve(args: argparse.Namespace) -> int:
+    import os
+
+    import uvicorn
+
+    from service.settings import Settings
+
+    # Flags become WIDEN_* variables so that every worker process reads the same settings.
+    for flag, name in (("store", "STORE"), ("host", "HOST"), ("port", "PORT"), ("workers", "WORKERS")):
+        value = getattr(args, flag)
+        if value is not None:
+            os.environ[f"WIDEN_{name}"] = str(value.resolve() if isinstance(value, Path) else value)
+    settings = Settings()
+    if not settings.store.is_dir():
+        raise BadInput(f"no store at {settings.store} (train one first: widen train --corpus ... --store ...)")
+    base = f"http://{settings.host}:{settings.port}"
+    print(f"widen serving {settings.store} with {settings.workers} worker(s)")
+    print(f"  API           {base}/v1/expand?q=lorry+driver")
+    print(f"  OpenAPI       {base}/openapi.json  (browsable at {base}/docs)")
+    print(f"  health        {base}/healthz  {base}/readyz  {base}/metrics", flush=True)
+    uvicorn.run(
+        "service.app:app_from_environment",
+        factory=True,
+        host=settings.host,
+        port=settings.port,
+        workers=settings.workers,
+        log_level="warning",
+        access_log=False,
+    )
+    return EXIT_OK
 
 
 def _expand(args: argparse.Namespace) -> int:

@@ -1,0 +1,485 @@
+"""The expansion service: FastAPI on uvicorn, a thin shell over the expansion core.
+
+`create_app(settings, holder)` wires everything in one place; tests build the app with their
+own settings. Every 4xx and 5xx has one JSON shape, `{"error": {"code", "message", "field"}}`.
+"""
+
+from __future__ import annotations
+
+import hmac
+import json
+import logging
+import sys
+import time
+import uuid
+from collections.abc import AsyncIterator, Awaitable, Callable, MutableMapping
+from contextlib import asynccontextmanager
+from typing import Any, Literal
+
+from fastapi import FastAPI, Query, Request
+from fastapi.exceptions import RequestValidationError
+from fastapi.middleware.cors import CORSMiddleware
+from fastapi.responses import JSONResponse, Response
+from prometheus_client import CollectorRegistry, Counter, Gauge, Histogram, Info, generate_latest
+from prometheus_client.exposition import CONTENT_TYPE_LATEST
+from pydantic import BaseModel, ConfigDict, Field
+from starlette.exceptions import HTTPException as StarletteHTTPException
+
+from service.cache import ResultCache
+from service.expansion import ExpansionOptions, expand
+from service.lifecycle import ModelHolder
+from service.result import ExpansionResult
+from service.settings import Settings
+from training.bundle import Store
+from training.tokenize import tokens
+
+__all__ = ["create_app", "app_from_environment", "ApiError"]
+
+Scope = MutableMapping[str, Any]
+Message = MutableMapping[str, Any]
+Receive = Callable[[], Awaitable[Message]]
+Send = Callable[[Message], Awaitable[None]]
+ASGIApp = Callable[[Scope, Receive, Send], Awaitable[None]]
+
+ROUTES = ("/v1/expand", "/v1/expand/batch", "/v1/model", "/healthz", "/readyz", "/metrics", "/v1/admin/reload")
+access_log = logging.getLogger("widen.access")
+
+
+# -- the wire models ---------------------------------------------------------------------
+
+
+class ErrorDetail(BaseModel):
+    code: str
+    message: str
+    field: str | None = None
+
+
+class ErrorBody(BaseModel):
+    error: ErrorDetail
+
+
+class _Options(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    max: int | None = Field(default=None, ge=1, le=50, description="at most this many expansions a segment")
+    min_similarity: float | None = Field(default=None, ge=0.0, le=1.0)
+    explain: bool = False
+    original_boost: float | None = Field(default=None, gt=0.0, le=100.0)
+    operator: Literal["AND", "OR"] | None = None
+
+
+class ExpandRequest(_Options):
+    query: str = Field(min_length=1, max_length=256, description="the seeker's query, as typed")
+
+
+class BatchRequest(_Options):
+    queries: list[str] = Field(min_length=1, max_length=100)
+
+
+class BatchResponse(BaseModel):
+    results: list[ExpansionResult]
+
+
+class ModelResponse(BaseModel):
+    version: str
+    created_at: str
+    vocabulary_size: int
+    phrase_count: int
+    corpus: dict[str, Any]
+    gate: dict[str, Any]
+
+
+class Status(BaseModel):
+    status: str
+    version: str | None = None
+
+
+class ReloadResponse(BaseModel):
+    result: str
+    version: str | None
+
+
+ERRORS: dict[int | str, dict[str, Any]] = {
+    code: {"model": ErrorBody, "description": text}
+    for code, text in (
+        (400, "bad input (the error names the field)"),
+        (401, "no token"),
+        (403, "wrong token"),
+        (404, "not found"),
+        (413, "body too large"),
+        (503, "no verified bundle loaded"),
+    )
+}
+
+
+class ApiError(Exception):
+    def __init__(self, status: int, code: str, message: str, field: str | None = None) -> None:
+        super().__init__(message)
+        self.status, self.code, self.message, self.field = status, code, message, field
+
+
+def _error(
+    status: int, code: str, message: str, field: str | None = None, headers: dict[str, str] | None = None
+) -> JSONResponse:
+    body = {"error": {"code": code, "message": message, "field": field}}
+    return JSONResponse(body, status_code=status, headers=headers)
+
+
+# -- telemetry ---------------------------------------------------------------------------
+
+
+class Telemetry:
+    """Prometheus metrics of one app, in its own registry."""
+
+    def __init__(self) -> None:
+        self.registry = CollectorRegistry()
+        self.requests = Counter(
+            "widen_requests", "HTTP requests by route and status", ["route", "status"], registry=self.registry
+        )
+        self.latency = Histogram(
+            "widen_request_seconds",
+            "HTTP request latency by route",
+            ["route"],
+            buckets=(0.0005, 0.001, 0.0025, 0.005, 0.01, 0.025, 0.05, 0.1, 0.25, 1.0),
+            registry=self.registry,
+        )
+        self.cache_hits = Counter("widen_cache_hits", "expansion cache hits", registry=self.registry)
+        self.cache_misses = Counter("widen_cache_misses", "expansion cache misses", registry=self.registry)
+        self.model = Info("widen_model", "the serving bundle", registry=self.registry)
+        self.reloads = Counter("widen_reloads", "bundles loaded", registry=self.registry)
+        self.refused = Counter("widen_reloads_refused", "bundles refused (failed verification)", registry=self.registry)
+        self.ready = Gauge("widen_ready", "1 while a verified bundle serves", registry=self.registry)
+
+    def event(self, kind: str, version: str) -> None:
+        if kind == "loaded":
+            self.reloads.inc()
+            self.model.info({"version": version})
+            self.ready.set(1)
+        elif kind == "refused":
+            self.refused.inc()
+
+
+# -- the edge: request ids, body limit, access log, metrics (plain ASGI, cheap) ----------------
+
+
+class Edge:
+    """Outermost middleware. Parameters: the app, the settings and the telemetry."""
+
+    def __init__(self, app: ASGIApp, settings: Settings, telemetry: Telemetry) -> None:
+        self.app, self.settings, self.telemetry = app, settings, telemetry
+
+    async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
+        if scope["type"] != "http":
+            await self.app(scope, receive, send)
+            return
+        started = time.perf_counter()
+        request_id = _request_id(scope)
+        status = {"code": 500}
+
+        async def send_with_id(message: Message) -> None:
+            if message["type"] == "http.response.start":
+                status["code"] = message["status"]
+                message.setdefault("headers", [])
+                message["headers"] = [*message["headers"], (b"x-request-id", request_id.encode())]
+            await send(message)
+
+        try:
+            if scope["method"] in ("POST", "PUT", "PATCH", "DELETE"):
+                body = await _read_limited(receive, self.settings.max_body_bytes)
+                if body is None:
+                    response = _error(413, "body_too_large", f"the body is over {self.settings.max_body_bytes} bytes")
+                    await response(scope, receive, send_with_id)
+                    return
+                receive = _replay(body)
+            await self.app(scope, receive, send_with_id)
+        finally:
+            path = scope.get("path", "")
+            route = path if path in ROUTES else "other"
+            seconds = time.perf_counter() - started
+            self.telemetry.requests.labels(route, str(status["code"])).inc()
+            self.telemetry.latency.labels(route).observe(seconds)
+            if self.settings.access_log:
+                access_log.info(
+                    json.dumps(
+                        {
+                            "at": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()),
+                            "request_id": request_id,
+                            "method": scope.get("method"),
+                            "path": path,
+                            "status": status["code"],
+                            "ms": round(seconds * 1000, 3),
+                        }
+                    )
+                )
+
+
+def _request_id(scope: Scope) -> str:
+    for name, value in scope.get("headers", []):
+        if name == b"x-request-id":
+            text = str(value.decode("latin-1"))
+            if 0 < len(text) <= 128 and text.isascii() and text.isprintable():
+                return text
+            break
+    return uuid.uuid4().hex
+
+
+async def _read_limited(receive: Receive, limit: int) -> bytes | None:
+    chunks, size = [], 0
+    while True:
+        message = await receive()
+        if message["type"] == "http.disconnect":
+            break
+        chunk = message.get("body", b"")
+        size += len(chunk)
+        if size > limit:
+            return None
+        chunks.append(chunk)
+        if not message.get("more_body"):
+            break
+    return b"".join(chunks)
+
+
+def _replay(body: bytes) -> Receive:
+    sent = False
+
+    async def receive() -> Message:
+        nonlocal sent
+        if not sent:
+            sent = True
+            return {"type": "http.request", "body": body, "more_body": False}
+        return {"type": "http.disconnect"}
+
+    return receive
+
+
+# -- the app -----------------------------------------------------------------------------
+
+
+def _field(loc: Any) -> str | None:
+    parts = [str(p) for p in loc]
+    if parts and parts[0] in ("body", "query", "path", "header"):
+        parts = parts[1:]  # where it was, not which field
+    return ".".join(parts) or None
+
+
+def create_app(settings: Settings, holder: ModelHolder | None = None, watch: bool = True) -> FastAPI:
+    """Build the service. `holder` defaults to one over `settings.store`; `watch` starts its watcher."""
+    telemetry = Telemetry()
+    if holder is None:
+        holder = ModelHolder(Store(settings.store), on_event=telemetry.event)
+    else:
+        holder.on_event = telemetry.event
+    # The service caches the response bytes: a hit costs a dict lookup, no model and no JSON work.
+    cache: ResultCache[bytes] = ResultCache(settings.cache_size)
+    defaults = ExpansionOptions(max_tokens=settings.max_query_tokens)
+
+    @asynccontextmanager
+    async def lifespan(app: FastAPI) -> AsyncIterator[None]:
+        if watch:
+            holder.start(settings.poll_seconds, settings.decisions_poll_seconds)
+        else:
+            holder.check()
+            holder.check_decisions()
+        if holder.serving is not None:
+            telemetry.event("loaded", holder.serving.version)
+        yield
+        holder.stop()
+
+    app = FastAPI(
+        title="widen",
+        version="1",
+        summary="Query expansion for job-posting search: a seeker's phrase becomes boosted neighbour phrases.",
+        lifespan=lifespan,
+    )
+    app.state.holder = holder
+    app.state.telemetry = telemetry
+    app.state.cache = cache
+
+    @app.exception_handler(ApiError)
+    async def _api_error(request: Request, exc: ApiError) -> JSONResponse:
+        return _error(exc.status, exc.code, exc.message, exc.field)
+
+    @app.exception_handler(RequestValidationError)
+    async def _invalid(request: Request, exc: RequestValidationError) -> JSONResponse:
+        first = exc.errors()[0] if exc.errors() else {"type": "invalid", "msg": "invalid request", "loc": ()}
+        kind = str(first.get("type", ""))
+        if kind == "json_invalid":
+            return _error(400, "invalid_json", "the body is not valid JSON")
+        return _error(400, "invalid_request", str(first.get("msg", "invalid request")), _field(first.get("loc", ())))
+
+    @app.exception_handler(StarletteHTTPException)
+    async def _http(request: Request, exc: StarletteHTTPException) -> JSONResponse:
+        if exc.status_code == 400:  # the framework could not read the body at all (not UTF-8)
+            return _error(400, "invalid_body", "the body is not valid JSON in UTF-8")
+        code = {404: "not_found", 405: "method_not_allowed"}.get(exc.status_code, "http_error")
+        return _error(exc.status_code, code, str(exc.detail), None, getattr(exc, "headers", None))
+
+    @app.exception_handler(Exception)
+    async def _unexpected(request: Request, exc: Exception) -> JSONResponse:
+        logging.getLogger("widen.serve").exception("unexpected error")
+        return _error(500, "internal", "unexpected error; the request id is in the response headers")
+
+    def _options(body: _Options) -> ExpansionOptions:
+        update: dict[str, Any] = {"explain": body.explain}
+        if body.max is not None:
+            update["max_per_segment"] = body.max
+        if body.min_similarity is not None:
+            update["min_similarity"] = body.min_similarity
+        if body.original_boost is not None:
+            update["original_boost"] = body.original_boost
+        if body.operator is not None:
+            update["operator"] = body.operator
+        return defaults.model_copy(update=update)
+
+    def _check_query(query: str, field: str) -> None:
+        if not query.strip():
+            raise ApiError(400, "empty_query", "the query is empty", field)
+        if len(query) > settings.max_query_chars:
+            raise ApiError(400, "query_too_long", f"the query is over {settings.max_query_chars} characters", field)
+        count = len(tokens(query))
+        if count == 0:
+            raise ApiError(400, "empty_query", "the query has no words", field)
+        if count > settings.max_query_tokens:
+            raise ApiError(400, "query_too_long", f"the query is over {settings.max_query_tokens} words", field)
+
+    def _expand(query: str, body: _Options, field: str) -> ExpansionResult:
+        serving = holder.serving  # taken once: a swap never changes the bundle under this request
+        if serving is None:
+            raise ApiError(503, "not_ready", holder.not_ready_reason)
+        _check_query(query, field)
+        return expand(serving.lexicon, holder.decisions, query, _options(body))
+
+    def _cached(query: str, body: _Options, field: str) -> Response:
+        serving, decisions = holder.serving, holder.decisions
+        key = (
+            serving.version if serving else None,
+            decisions.version,
+            query,
+            body.max,
+            body.min_similarity,
+            body.explain,
+            body.original_boost,
+            body.operator,
+        )
+        found = cache.get(key)
+        if found is None:
+            telemetry.cache_misses.inc()
+            found = _expand(query, body, field).model_dump_json().encode()
+            cache.put(key, found)
+        else:
+            telemetry.cache_hits.inc()
+        return Response(found, media_type="application/json")
+
+    def _json(model: BaseModel) -> Response:
+        return Response(model.model_dump_json(), media_type="application/json")
+
+    @app.get("/v1/expand", response_model=ExpansionResult, responses=ERRORS, tags=["expand"])
+    async def expand_get(
+        q: str = Query(min_length=1, max_length=256, description="the seeker's query"),
+        max: int | None = Query(default=None, ge=1, le=50),
+        min_similarity: float | None = Query(default=None, ge=0.0, le=1.0),
+        explain: bool = False,
+        original_boost: float | None = Query(default=None, gt=0.0, le=100.0),
+        operator: Literal["AND", "OR"] | None = None,
+    ) -> Response:
+        """Expand one query; the result model is the same as the CLI's JSON."""
+        body = _Options.model_construct(
+            max=max, min_similarity=min_similarity, explain=explain, original_boost=original_boost, operator=operator
+        )
+        return _cached(q, body, "q")
+
+    @app.post("/v1/expand", response_model=ExpansionResult, responses=ERRORS, tags=["expand"])
+    async def expand_post(body: ExpandRequest) -> Response:
+        return _cached(body.query, body, "query")
+
+    @app.post("/v1/expand/batch", response_model=BatchResponse, responses=ERRORS, tags=["expand"])
+    async def expand_batch(body: BatchRequest) -> Response:
+        if len(body.queries) > settings.max_batch:
+            raise ApiError(400, "batch_too_large", f"at most {settings.max_batch} queries a batch", "queries")
+        results = [_expand(q, body, f"queries.{n}") for n, q in enumerate(body.queries)]
+        return _json(BatchResponse(results=results))
+
+    @app.get("/v1/model", response_model=ModelResponse, responses=ERRORS, tags=["model"])
+    async def model() -> ModelResponse:
+        serving = holder.serving
+        if serving is None:
+            raise ApiError(503, "not_ready", holder.not_ready_reason)
+        m = serving.lexicon.bundle.manifest
+        corpus = {k: m["corpus"].get(k) for k in ("sha256", "postings_read", "postings_used", "duplicates", "skipped")}
+        gate = {k: m["gate"].get(k) for k in ("passed", "score", "current_score", "forced")}
+        return ModelResponse(
+            version=m["version"],
+            created_at=m["created_at"],
+            vocabulary_size=m["vocabulary_size"],
+            phrase_count=m["phrase_count"],
+            corpus=corpus,
+            gate=gate,
+        )
+
+    @app.get("/healthz", response_model=Status, tags=["operations"])
+    async def healthz() -> Status:
+        """The process is alive."""
+        return Status(status="alive")
+
+    @app.get("/readyz", response_model=Status, responses=ERRORS, tags=["operations"])
+    async def readyz() -> Status:
+        """200 only while a verified bundle serves."""
+        serving = holder.serving
+        if serving is None:
+            raise ApiError(503, "not_ready", holder.not_ready_reason)
+        return Status(status="ready", version=serving.version)
+
+    @app.get(
+        "/metrics",
+        tags=["operations"],
+        response_class=Response,
+        responses={200: {"content": {CONTENT_TYPE_LATEST: {}}}},
+    )
+    async def metrics() -> Response:
+        """Prometheus text exposition."""
+        return Response(generate_latest(telemetry.registry), media_type=CONTENT_TYPE_LATEST)
+
+    def _admin(request: Request) -> None:
+        token = settings.admin_token.get_secret_value() if settings.admin_token else ""
+        if not token:
+            raise ApiError(404, "not_found", "Not Found")
+        header = request.headers.get("authorization", "")
+        if not header.startswith("Bearer ") or not header[7:]:
+            raise ApiError(401, "unauthorized", "an admin token is required: Authorization: Bearer <token>")
+        if not hmac.compare_digest(header[7:].encode(), token.encode()):
+            raise ApiError(403, "forbidden", "the admin token is wrong")
+
+    @app.post("/v1/admin/reload", response_model=ReloadResponse, responses=ERRORS, tags=["operations"])
+    def reload(request: Request) -> ReloadResponse:
+        """Check the store now instead of waiting for the next poll (admin token)."""
+        _admin(request)
+        result = holder.check()
+        holder.check_decisions()
+        return ReloadResponse(result=result, version=holder.serving.version if holder.serving else None)
+
+    if settings.cors_origins:
+        app.add_middleware(
+            CORSMiddleware,
+            allow_origins=settings.cors_origins,
+            allow_methods=["GET", "POST"],
+            allow_headers=["Authorization", "Content-Type", "X-Request-ID"],
+            expose_headers=["X-Request-ID"],
+        )
+    app.add_middleware(Edge, settings=settings, telemetry=telemetry)  # type: ignore[arg-type]
+    return app
+
+
+def _configure_logging() -> None:
+    if not access_log.handlers:
+        handler = logging.StreamHandler(sys.stderr)
+        handler.setFormatter(logging.Formatter("%(message)s"))
+        access_log.addHandler(handler)
+        access_log.setLevel(logging.INFO)
+        access_log.propagate = False
+
+
+def app_from_environment() -> FastAPI:
+    """The factory uvicorn's workers call: settings from WIDEN_* variables."""
+    _configure_logging()
+    logging.basicConfig(level=logging.INFO, format="%(levelname)s %(name)s: %(message)s")
+    return create_app(Settings())

@@ -1,0 +1,33 @@
+"""Service settings: every one from the environment (prefix WIDEN_) or from `widen serve` flags."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from pydantic import Field, SecretStr
+from pydantic_settings import BaseSettings, SettingsConfigDict
+
+__all__ = ["Settings"]
+
+
+class Settings(BaseSettings):
+    """What `widen serve` runs with; the README lists each with its default."""
+
+    model_config = SettingsConfigDict(env_prefix="WIDEN_", extra="ignore")
+
+    store: Path = Field(default=Path("store"), description="the store folder to serve")
+    host: str = "127.0.0.1"
+    port: int = Field(default=8000, ge=0, le=65535)
+    workers: int = Field(default=1, ge=1, le=64)
+    poll_seconds: float = Field(default=2.0, gt=0.0, le=3600.0, description="how often CURRENT is checked")
+    decisions_poll_seconds: float = Field(default=0.5, gt=0.0, le=60.0)
+    admin_token: SecretStr | None = None
+    review_token: SecretStr | None = None
+    cors_origins: list[str] = []
+    cache_size: int = Field(default=10_000, ge=0)
+    max_query_chars: int = Field(default=256, ge=1)
+    max_query_tokens: int = Field(default=32, ge=1)
+    max_batch: int = Field(default=100, ge=1)
+    max_body_bytes: int = Field(default=64 * 1024, ge=1024)
+    access_log: bool = True
+    demo_index: Path | None = None

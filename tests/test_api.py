@@ -1,0 +1,245 @@
+"""The HTTP API: behaviour, the error shape, limits, security, metrics, hot swap."""
+
+from __future__ import annotations
+
+import json
+import shutil
+import threading
+import time
+from collections.abc import Iterator
+from pathlib import Path
+
+import pytest
+from fastapi.testclient import TestClient
+from prometheus_client.parser import text_string_to_metric_families
+
+from service.app import create_app
+from service.decisions import DecisionStore
+from service.expansion import ExpansionOptions, Lexicon, expand
+from service.settings import Settings
+from training.bundle import Store, new_version, open_bundle
+
+
+def _settings(store: Path, **extra: object) -> Settings:
+    values: dict[str, object] = {
+        "store": store,
+        "access_log": False,
+        "poll_seconds": 0.05,
+        "decisions_poll_seconds": 0.05,
+    }
+    values.update(extra)
+    return Settings(**values)  # type: ignore[arg-type]
+
+
+@pytest.fixture
+def client(store_copy: Path) -> Iterator[TestClient]:
+    with TestClient(create_app(_settings(store_copy, admin_token="tollbridge-admin"))) as c:
+        yield c
+
+
+def _copy_bundle(store: Path, corrupt: bool = False) -> str:
+    """Publish a copy of the current bundle under a new version (optionally with one flipped byte)."""
+    s = Store(store)
+    current = s.current_version() or ""
+    version = new_version(current)
+    target = s.bundle_dir(version)
+    shutil.copytree(s.bundle_dir(current), target)
+    manifest = json.loads((target / "manifest.json").read_text())
+    manifest["version"] = version
+    (target / "manifest.json").write_text(json.dumps(manifest))
+    if corrupt:
+        path = target / "neighbours_similarity.npy"
+        data = bytearray(path.read_bytes())
+        data[len(data) // 2] ^= 0x01
+        path.write_bytes(bytes(data))
+    s.set_current(version, by="test")
+    return version
+
+
+def test_get_and_post_return_the_core_result(client: TestClient, store_copy: Path) -> None:
+    lexicon = Lexicon(open_bundle(Store(store_copy)))
+    expected = expand(
+        lexicon, DecisionStore(Store(store_copy).decisions_path).snapshot(), "lorry driver", ExpansionOptions()
+    )
+    got = client.get("/v1/expand", params={"q": "lorry driver"})
+    assert got.status_code == 200 and got.json() == json.loads(expected.model_dump_json())
+    posted = client.post("/v1/expand", json={"query": "lorry driver"})
+    assert posted.json() == got.json()
+    narrow = client.post("/v1/expand", json={"query": "lorry driver", "max": 1, "explain": True, "operator": "OR"})
+    body = narrow.json()
+    assert len(body["segments"][0]["expansions"]) == 1 and body["segments"][0]["dropped"]
+
+
+def test_batch_and_model(client: TestClient) -> None:
+    batch = client.post("/v1/expand/batch", json={"queries": ["rn", "kitchen porter hensby"], "max": 2})
+    assert batch.status_code == 200
+    assert [r["query"] for r in batch.json()["results"]] == ["rn", "kitchen porter hensby"]
+    model = client.get("/v1/model").json()
+    assert model["version"] == client.get("/readyz").json()["version"]
+    assert model["corpus"]["postings_read"] > 0 and model["gate"]["passed"] is True
+
+
+BAD = [
+    ("get", "/v1/expand", {"params": {"q": ""}}, 400, "q"),
+    ("get", "/v1/expand", {"params": {"q": "   "}}, 400, "q"),
+    ("get", "/v1/expand", {"params": {"q": "x" * 257}}, 400, "q"),
+    ("get", "/v1/expand", {"params": {"q": " ".join(["nurse"] * 33)}}, 400, "q"),
+    ("get", "/v1/expand", {"params": {"q": "rn", "max": 0}}, 400, "max"),
+    ("get", "/v1/expand", {"params": {"q": "rn", "max": 51}}, 400, "max"),
+    ("get", "/v1/expand", {"params": {"q": "rn", "max": "five"}}, 400, "max"),
+    ("get", "/v1/expand", {"params": {"q": "rn", "min_similarity": 1.5}}, 400, "min_similarity"),
+    ("get", "/v1/expand", {"params": {"q": "rn", "min_similarity": -0.1}}, 400, "min_similarity"),
+    ("get", "/v1/expand", {"params": {"q": "rn", "operator": "XOR"}}, 400, "operator"),
+    ("get", "/v1/expand", {"params": {"q": "..."}}, 400, "q"),
+    ("get", "/v1/expand", {}, 400, "q"),
+    ("post", "/v1/expand", {"json": {"query": 5}}, 400, "query"),
+    ("post", "/v1/expand", {"json": {"query": "rn", "max": "5"}}, 400, "max"),
+    ("post", "/v1/expand", {"json": {"query": "rn", "explain": "yes"}}, 400, "explain"),
+    ("post", "/v1/expand", {"json": {"query": "rn", "colour": "red"}}, 400, "colour"),
+    ("post", "/v1/expand", {"json": ["rn"]}, 400, None),
+    ("post", "/v1/expand", {"content": b"{not json", "headers": {"content-type": "application/json"}}, 400, None),
+    (
+        "post",
+        "/v1/expand",
+        {"content": b'{"query": "caf\xe9"}', "headers": {"content-type": "application/json"}},
+        400,
+        None,
+    ),
+    (
+        "post",
+        "/v1/expand",
+        {"content": b"x" * (64 * 1024 + 1), "headers": {"content-type": "application/json"}},
+        413,
+        None,
+    ),
+    ("post", "/v1/expand/batch", {"json": {"queries": ["rn"] * 101}}, 400, "queries"),
+    ("post", "/v1/expand/batch", {"json": {"queries": []}}, 400, "queries"),
+    ("post", "/v1/expand/batch", {"json": {"queries": ["rn", ""]}}, 400, "queries.1"),
+    ("get", "/v2/expand", {}, 404, None),
+    ("delete", "/v1/expand", {}, 405, None),
+]
+
+
+@pytest.mark.parametrize("method, path, kwargs, status, field", BAD, ids=[f"{b[1]}-{i}" for i, b in enumerate(BAD)])
+def test_bad_input_is_a_clear_4xx_in_the_error_shape(
+    client: TestClient, method: str, path: str, kwargs: dict[str, object], status: int, field: str | None
+) -> None:
+    response = getattr(client, method)(path, **kwargs)
+    assert response.status_code == status, response.text
+    body = response.json()
+    assert set(body) == {"error"} and set(body["error"]) == {"code", "message", "field"}
+    assert body["error"]["code"] and body["error"]["message"]
+    assert body["error"]["field"] == field
+
+
+def test_admin_endpoints_need_the_token(store_copy: Path) -> None:
+    with TestClient(create_app(_settings(store_copy))) as off:
+        assert off.post("/v1/admin/reload").status_code == 404  # no token configured: off, never open
+    with TestClient(create_app(_settings(store_copy, admin_token="tollbridge-admin"))) as on:
+        assert on.post("/v1/admin/reload").status_code == 401
+        assert on.post("/v1/admin/reload", headers={"Authorization": "Bearer wrong"}).status_code == 403
+        assert on.post("/v1/admin/reload", headers={"Authorization": "Basic tollbridge-admin"}).status_code == 401
+        ok = on.post("/v1/admin/reload", headers={"Authorization": "Bearer tollbridge-admin"})
+        assert ok.status_code == 200 and ok.json()["result"] == "unchanged"
+
+
+def test_request_id_is_echoed_or_made(client: TestClient) -> None:
+    assert client.get("/healthz", headers={"X-Request-ID": "tvj-search-42"}).headers["x-request-id"] == "tvj-search-42"
+    made = client.get("/healthz").headers["x-request-id"]
+    assert len(made) == 32 and made != client.get("/healthz").headers["x-request-id"]
+    assert len(client.get("/healthz", headers={"X-Request-ID": "x" * 500}).headers["x-request-id"]) == 32
+
+
+def test_cors_is_off_by_default_and_follows_the_settings(store_copy: Path) -> None:
+    origin = {"Origin": "https://jobs.tollbridge.example"}
+    with TestClient(create_app(_settings(store_copy))) as c:
+        assert "access-control-allow-origin" not in c.get("/healthz", headers=origin).headers
+    with TestClient(create_app(_settings(store_copy, cors_origins=["https://jobs.tollbridge.example"]))) as c:
+        assert c.get("/healthz", headers=origin).headers["access-control-allow-origin"] == origin["Origin"]
+
+
+def test_metrics_parse_with_the_reference_parser(client: TestClient) -> None:
+    client.get("/v1/expand", params={"q": "kitchen porter"})
+    client.get("/v1/expand", params={"q": "kitchen porter"})
+    client.get("/v1/expand", params={"q": ""})
+    text = client.get("/metrics").text
+    # Reference implementation of the Prometheus text format: prometheus-client's own parser.
+    families = {f.name: f for f in text_string_to_metric_families(text)}
+    requests = {
+        (s.labels["route"], s.labels["status"]): s.value
+        for s in families["widen_requests"].samples
+        if s.name == "widen_requests_total"
+    }
+    assert requests[("/v1/expand", "200")] == 2 and requests[("/v1/expand", "400")] == 1
+    assert any(s.name == "widen_request_seconds_bucket" for s in families["widen_request_seconds"].samples)
+    assert families["widen_cache_hits"].samples[0].value == 1
+    info = families["widen_model_info"].samples[0]
+    assert info.labels["version"] == client.get("/readyz").json()["version"]
+    assert "widen_reloads_refused" in families and "widen_ready" in families
+
+
+def test_empty_store_is_alive_not_ready_until_a_bundle_is_published(tmp_path: Path, trained_store: Path) -> None:
+    store = tmp_path / "store"
+    with TestClient(create_app(_settings(store))) as c:
+        assert c.get("/healthz").status_code == 200
+        ready = c.get("/readyz")
+        assert ready.status_code == 503 and ready.json()["error"]["code"] == "not_ready"
+        assert c.get("/v1/expand", params={"q": "rn"}).status_code == 503
+        shutil.copytree(trained_store / "bundles", store / "bundles")
+        Store(store).set_current(Store(trained_store).current_version() or "", by="test")
+        deadline = time.monotonic() + 5
+        while c.get("/readyz").status_code != 200 and time.monotonic() < deadline:
+            time.sleep(0.05)
+        assert c.get("/readyz").status_code == 200
+        assert c.get("/v1/expand", params={"q": "rn"}).status_code == 200
+
+
+def test_a_decision_takes_effect_within_a_second(client: TestClient, store_copy: Path) -> None:
+    before = client.get("/v1/expand", params={"q": "kitchen porter"}).json()
+    victim = before["segments"][0]["expansions"][0]["phrase"]
+    DecisionStore(Store(store_copy).decisions_path).add("kitchen porter", "block", "ana", neighbour=victim)
+    started = time.monotonic()
+    while time.monotonic() - started < 1.0:
+        now = client.get("/v1/expand", params={"q": "kitchen porter"}).json()
+        if victim not in [e["phrase"] for e in now["segments"][0]["expansions"]]:
+            break
+        time.sleep(0.02)
+    else:
+        pytest.fail("the block did not take effect within 1 s")
+
+
+def test_hot_swap_under_load_fails_no_request(client: TestClient, store_copy: Path) -> None:
+    old = client.get("/readyz").json()["version"]
+    stop = threading.Event()
+    seen: list[tuple[int, str | None]] = []
+    queries = ["lorry driver", "rn", "kitchen porter hensby", "night shift staff nurse", "server"]
+
+    def load() -> None:
+        n = 0
+        deadline = time.monotonic() + 15
+        while not stop.is_set() and time.monotonic() < deadline and n < 5000:
+            r = client.get("/v1/expand", params={"q": queries[n % len(queries)], "max": 1 + n % 5})
+            seen.append((r.status_code, r.json().get("model", {}).get("version")))
+            n += 1
+
+    workers = [threading.Thread(target=load) for _ in range(4)]
+    for w in workers:
+        w.start()
+    time.sleep(0.3)
+    new = _copy_bundle(store_copy)
+    deadline = time.monotonic() + 5
+    while client.get("/readyz").json()["version"] != new and time.monotonic() < deadline:
+        time.sleep(0.02)
+    time.sleep(0.3)
+    # A corrupt bundle is refused; the good one keeps serving.
+    bad = _copy_bundle(store_copy, corrupt=True)
+    time.sleep(0.5)
+    stop.set()
+    for w in workers:
+        w.join()
+    assert seen and all(status == 200 for status, _ in seen), {s for s, _ in seen}
+    versions = [v for _, v in seen]
+    assert old in versions and new in versions and bad not in versions
+    assert client.get("/readyz").json()["version"] == new
+    metrics = client.get("/metrics").text
+    assert "widen_reloads_refused_total 1.0" in metrics
