@@ -19,9 +19,15 @@ $(BIN)/.installed: pyproject.toml
 $(DEMO)/postings.jsonl: demo_postings/generate.py | $(BIN)/.installed
 	$(BIN)/python demo_postings/generate.py --out $(DEMO) --postings $(POSTINGS) --seed 7
 
+PORT ?= 8000
+
+# Train the demo store (a refused gate, exit 3, still leaves a serving bundle), then serve it.
 demo: $(BIN)/.installed $(DEMO)/postings.jsonl
 	$(BIN)/widen train --corpus $(DEMO)/postings.jsonl --store $(STORE) --config demo_postings/widen.toml || [ $$? -eq 3 ]
 	$(BIN)/widen bundles --store $(STORE)
+	$(BIN)/widen expand 'lorry driver' --store $(STORE)
+	@echo "serving the demo store; Ctrl-C stops it"
+	$(BIN)/widen serve --store $(STORE) --port $(PORT)
 
 lint: $(BIN)/.installed
 	$(BIN)/ruff check service training tests demo_postings bench
@@ -32,6 +38,7 @@ test: lint
 	$(BIN)/python -m pytest -q
 
 bench: $(BIN)/.installed $(DEMO)/postings.jsonl
+	@command -v wrk >/dev/null 2>&1 || { [ "$$(id -u)" = 0 ] && apt-get install -y -qq wrk >/dev/null 2>&1 || (apt-get update -qq && apt-get install -y -qq wrk); } || { echo "the server benchmark needs wrk (apt-get install wrk)"; exit 1; }
 	$(BIN)/python bench/run.py --demo $(DEMO) --out build/bench
 
 clean:

@@ -219,6 +219,127 @@ def bench_expansion(store: Path, demo: Path) -> dict[str, Any]:
     }
 
 
+def _free_port() -> int:
+    import socket
+
+    with socket.socket() as sock:
+        sock.bind(("127.0.0.1", 0))
+        return int(sock.getsockname()[1])
+
+
+def _serve(store: Path, workers: int, **env: str) -> tuple[subprocess.Popen[bytes], str]:
+    import httpx
+
+    port = _free_port()
+    environ = dict(os.environ, WIDEN_ACCESS_LOG="false", **env)
+    proc = subprocess.Popen(
+        [
+            sys.executable,
+            "-m",
+            "service.cli",
+            "serve",
+            "--store",
+            str(store),
+            "--port",
+            str(port),
+            "--workers",
+            str(workers),
+        ],
+        cwd=ROOT,
+        env=environ,
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.DEVNULL,
+    )
+    base = f"http://127.0.0.1:{port}"
+    deadline = time.monotonic() + 60
+    while time.monotonic() < deadline:
+        try:
+            if httpx.get(f"{base}/readyz", timeout=1).status_code == 200:
+                return proc, base
+        except httpx.TransportError:
+            pass
+        time.sleep(0.2)
+    proc.kill()
+    raise RuntimeError("the server did not become ready")
+
+
+def _wrk(url: str, seconds: int = 10, connections: int = 32) -> dict[str, Any]:
+    import re as _re
+
+    out = subprocess.run(
+        ["wrk", "-t2", f"-c{connections}", f"-d{seconds}s", "--latency", url],
+        capture_output=True,
+        text=True,
+        check=True,
+    ).stdout
+    rps = float(_re.search(r"Requests/sec:\s+([\d.]+)", out).group(1))  # type: ignore[union-attr]
+
+    def ms(label: str) -> float:
+        found = _re.search(rf"{label}%\s+([\d.]+)(us|ms|s)", out)
+        value, unit = float(found.group(1)), found.group(2)  # type: ignore[union-attr]
+        return round(value / 1000 if unit == "us" else value * 1000 if unit == "s" else value, 2)
+
+    errors = sum(int(n) for n in _re.findall(r"Non-2xx or 3xx responses: (\d+)", out))
+    errors += sum(int(n) for n in _re.findall(r"(?:connect|read|write|timeout) (\d+)", out))
+    return {"rps": round(rps, 1), "p50_ms": ms("50"), "p99_ms": ms("99"), "errors": errors}
+
+
+def _pss_kib(pid: int) -> int:
+    """Proportional set size of a process and its children: shared pages split among sharers."""
+    import psutil
+
+    total = 0
+    for proc in [psutil.Process(pid), *psutil.Process(pid).children(recursive=True)]:
+        for line in Path(f"/proc/{proc.pid}/smaps_rollup").read_text().splitlines():
+            if line.startswith("Pss:"):
+                total += int(line.split()[1])
+    return total
+
+
+def bench_server(store: Path) -> dict[str, Any]:
+    """The real server on 127.0.0.1 under wrk (32 connections): /healthz against /v1/expand, and memory."""
+    import shutil as _shutil
+
+    import httpx
+
+    if _shutil.which("wrk") is None:
+        raise SystemExit("wrk is needed for the server benchmark: apt-get install wrk")
+    query = "/v1/expand?q=night+shift+staff+nurse+hensby"
+    results: dict[str, Any] = {}
+    for label, env in (("cache on", {}), ("cache off", {"WIDEN_CACHE_SIZE": "0"})):
+        proc, base = _serve(store, 1, **env)
+        try:
+            _wrk(f"{base}/healthz", 3)  # warm up
+            rounds = [(_wrk(f"{base}/healthz", 6), _wrk(f"{base}{query}", 6)) for _ in range(3)]  # interleaved
+        finally:
+            proc.terminate()
+            proc.wait(20)
+        health = sorted((h for h, _ in rounds), key=lambda r: r["rps"])[1]
+        expand = sorted((e for _, e in rounds), key=lambda r: r["rps"])[1]
+        results[label] = {
+            "healthz": health,
+            "expand": expand,
+            "ratio": round(expand["rps"] / health["rps"], 3),
+            "rounds": [[h["rps"], e["rps"]] for h, e in rounds],
+            "worst_p99_ms": max(e["p99_ms"] for _, e in rounds),
+            "errors": sum(h["errors"] + e["errors"] for h, e in rounds),
+        }
+    memory = {}
+    for workers in (1, 2):
+        proc, base = _serve(store, workers)
+        try:
+            for _ in range(200):
+                httpx.get(f"{base}{query}")
+            memory[workers] = _pss_kib(proc.pid)
+        finally:
+            proc.terminate()
+            proc.wait(20)
+    results["memory_pss_mib"] = {str(k): round(v / 1024, 1) for k, v in memory.items()}
+    results["memory_ratio_2_to_1"] = round(memory[2] / memory[1], 3)
+    results["targets"] = {"ratio": ">= 0.7", "p99_ms": "<= 25", "errors": 0, "memory_ratio_2_to_1": "<= 1.3"}
+    return results
+
+
 _PEAK = r"""
 import io, json, resource, sys
 from pathlib import Path
@@ -269,7 +390,7 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("--demo", type=Path, default=ROOT / "build" / "demo")
     parser.add_argument("--out", type=Path, default=ROOT / "build" / "bench")
-    parser.add_argument("--only", nargs="*", default=None, help="sections: pipeline neighbours memory expansion")
+    parser.add_argument("--only", nargs="*", default=None, help="sections: pipeline neighbours memory expansion server")
     args = parser.parse_args()
     args.demo, args.out = args.demo.resolve(), args.out.resolve()
     args.out.mkdir(parents=True, exist_ok=True)
@@ -278,7 +399,7 @@ def main() -> None:
     config.gate.pairs = str(args.demo / "pairs.tsv")
     config_path.write_text(config.to_toml(), encoding="utf-8")
     results: dict[str, Any] = {"machine": machine(), "date": time.strftime("%Y-%m-%d")}
-    wanted = set(args.only or ["pipeline", "neighbours", "memory", "expansion"])
+    wanted = set(args.only or ["pipeline", "neighbours", "memory", "expansion", "server"])
     with tempfile.TemporaryDirectory(prefix="widen-bench-") as tmp:
         work = Path(tmp)
         if "pipeline" in wanted:
@@ -294,6 +415,11 @@ def main() -> None:
             store = work / "exp-store"
             _widen_train(args.demo / "postings.jsonl", store, config_path)
             results["expansion"] = bench_expansion(store, args.demo)
+        if "server" in wanted:
+            print("server under wrk ...", file=sys.stderr)
+            store = work / "srv-store"
+            _widen_train(args.demo / "postings.jsonl", store, config_path)
+            results["server"] = bench_server(store)
         if "memory" in wanted:
             print("memory 1x / 4x ...", file=sys.stderr)
             results["memory"] = bench_memory(args.demo, work, config_path)

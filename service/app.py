@@ -163,10 +163,27 @@ class Telemetry:
 
 
 class Edge:
-    """Outermost middleware. Parameters: the app, the settings and the telemetry."""
+    """Outermost middleware. Parameters: the app, the settings, the telemetry, the model holder
+    and the response cache.
 
-    def __init__(self, app: ASGIApp, settings: Settings, telemetry: Telemetry) -> None:
-        self.app, self.settings, self.telemetry = app, settings, telemetry
+    A GET of /v1/expand whose exact query string was answered before, for the same bundle and
+    decisions, is answered here from the cache without entering the framework.
+    """
+
+    def __init__(
+        self, app: ASGIApp, settings: Settings, telemetry: Telemetry, holder: ModelHolder, cache: ResultCache[bytes]
+    ) -> None:
+        self.app, self.settings, self.telemetry, self.holder, self.cache = app, settings, telemetry, holder, cache
+
+    def _get_key(self, scope: Scope) -> tuple[object, ...] | None:
+        if scope["method"] != "GET" or scope.get("path") != "/v1/expand" or self.cache.size <= 0:
+            return None
+        if any(name == b"origin" for name, _ in scope.get("headers", [])):
+            return None  # browser calls go through the CORS layer, which this shortcut would skip
+        serving = self.holder.serving
+        if serving is None:
+            return None
+        return ("GET", serving.version, self.holder.decisions.version, scope.get("query_string", b""))
 
     async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
         if scope["type"] != "http":
@@ -176,14 +193,23 @@ class Edge:
         request_id = _request_id(scope)
         status = {"code": 500}
 
-        async def send_with_id(message: Message) -> None:
+        async def with_id(message: Message) -> None:
             if message["type"] == "http.response.start":
                 status["code"] = message["status"]
                 message.setdefault("headers", [])
                 message["headers"] = [*message["headers"], (b"x-request-id", request_id.encode())]
             await send(message)
 
+        send_with_id: Send = with_id
         try:
+            key = self._get_key(scope)
+            if key is not None:
+                found = self.cache.get(key)
+                if found is not None:
+                    self.telemetry.cache_hits.inc()
+                    await Response(found, media_type="application/json")(scope, receive, send_with_id)
+                    return
+                send_with_id = _keep_body(send_with_id, self.cache, key)
             if scope["method"] in ("POST", "PUT", "PATCH", "DELETE"):
                 body = await _read_limited(receive, self.settings.max_body_bytes)
                 if body is None:
@@ -211,6 +237,22 @@ class Edge:
                         }
                     )
                 )
+
+
+def _keep_body(send: Send, cache: ResultCache[bytes], key: tuple[object, ...]) -> Send:
+    """Pass a response on, and cache its body when it is a complete 200."""
+    state: dict[str, Any] = {"ok": False, "chunks": []}
+
+    async def send_and_keep(message: Message) -> None:
+        if message["type"] == "http.response.start":
+            state["ok"] = message["status"] == 200
+        elif message["type"] == "http.response.body" and state["ok"]:
+            state["chunks"].append(message.get("body", b""))
+            if not message.get("more_body"):
+                cache.put(key, b"".join(state["chunks"]))
+        await send(message)
+
+    return send_and_keep
 
 
 def _request_id(scope: Scope) -> str:
@@ -465,7 +507,7 @@ def create_app(settings: Settings, holder: ModelHolder | None = None, watch: boo
             allow_headers=["Authorization", "Content-Type", "X-Request-ID"],
             expose_headers=["X-Request-ID"],
         )
-    app.add_middleware(Edge, settings=settings, telemetry=telemetry)  # type: ignore[arg-type]
+    app.add_middleware(Edge, settings=settings, telemetry=telemetry, holder=holder, cache=cache)  # type: ignore[arg-type]
     return app
 
 

@@ -168,8 +168,6 @@ def _parser() -> argparse.ArgumentParser:
 def _serve(args: argparse.Namespace) -> int:
     import os
 
-    import uvicorn
-
     from service.settings import Settings
 
     # Flags become WIDEN_* variables so that every worker process reads the same settings.
@@ -185,16 +183,13 @@ def _serve(args: argparse.Namespace) -> int:
     print(f"  API           {base}/v1/expand?q=lorry+driver")
     print(f"  OpenAPI       {base}/openapi.json  (browsable at {base}/docs)")
     print(f"  health        {base}/healthz  {base}/readyz  {base}/metrics", flush=True)
-    uvicorn.run(
-        "service.app:app_from_environment",
-        factory=True,
-        host=settings.host,
-        port=settings.port,
-        workers=settings.workers,
-        log_level="warning",
-        access_log=False,
-    )
-    return EXIT_OK
+    # Hand the process over to uvicorn: with several workers its supervisor then holds none of
+    # widen's libraries, only the workers do (each loads the app from WIDEN_* variables).
+    command = [sys.executable, "-m", "uvicorn", "service.app:app_from_environment", "--factory"]
+    command += ["--host", settings.host, "--port", str(settings.port), "--workers", str(settings.workers)]
+    command += ["--log-level", "warning", "--no-access-log"]
+    os.execv(sys.executable, command)
+    return EXIT_OK  # pragma: no cover - execv does not return
 
 
 def _expand(args: argparse.Namespace) -> int:

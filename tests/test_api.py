@@ -156,6 +156,9 @@ def test_cors_is_off_by_default_and_follows_the_settings(store_copy: Path) -> No
         assert "access-control-allow-origin" not in c.get("/healthz", headers=origin).headers
     with TestClient(create_app(_settings(store_copy, cors_origins=["https://jobs.tollbridge.example"]))) as c:
         assert c.get("/healthz", headers=origin).headers["access-control-allow-origin"] == origin["Origin"]
+        for _ in range(2):  # the second is a cache hit, and must carry the header too
+            got = c.get("/v1/expand", params={"q": "rn"}, headers=origin)
+            assert got.headers["access-control-allow-origin"] == origin["Origin"]
 
 
 def test_metrics_parse_with_the_reference_parser(client: TestClient) -> None:
