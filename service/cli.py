@@ -128,6 +128,23 @@ def _parser() -> argparse.ArgumentParser:
     p.set_defaults(handler=_expand)
 
     p = sub.add_parser(
+        "evaluate",
+        help="measure what expansion does to search results on labelled queries (tantivy BM25)",
+        formatter_class=_Formatter,
+        description="Index the postings with tantivy (once per dump), run every labelled query as the "
+        "front end does today (the seeker's words only) and expanded (query_text), and report recall@k, "
+        "nDCG@10, MRR and the exact-first rate, per family and for the ten queries that lost most.",
+        epilog="examples:\n  widen evaluate --store build/store --postings build/demo/postings.jsonl "
+        "--queries build/demo/queries.jsonl --out build/eval",
+    )
+    p.add_argument("--store", type=Path, required=True)
+    p.add_argument("--postings", type=Path, required=True, help="the dump the index is built from")
+    p.add_argument("--queries", type=Path, required=True, help="labelled queries, JSON Lines")
+    p.add_argument("--out", type=Path, required=True, help="folder for report.json, report.md, runs, plots")
+    p.add_argument("--k", default="10,100", help="recall cut-offs, comma separated (default 10,100)")
+    p.set_defaults(handler=_evaluate)
+
+    p = sub.add_parser(
         "decide",
         help="record a reviewer decision: block, pin, never, or undo one",
         formatter_class=_Formatter,
@@ -209,6 +226,36 @@ def _expand(args: argparse.Namespace) -> int:
         print(result.model_dump_json(indent=2, exclude_none=True))
         return EXIT_OK
     print(render_table(result))
+    return EXIT_OK
+
+
+def _evaluate(args: argparse.Namespace) -> int:
+    from service.evaluation import evaluate, read_queries, write_report
+    from service.search_index import SearchIndex
+
+    try:
+        ks = sorted({int(k) for k in args.k.split(",") if k.strip()})
+    except ValueError as exc:
+        raise BadInput(f"--k takes whole numbers separated by commas, not {args.k!r}") from exc
+    if not ks or min(ks) < 1 or max(ks) > 100:
+        raise BadInput("--k values must lie in 1..100 (runs are 100 deep)")
+    for path in (args.postings, args.queries):
+        if not path.is_file():
+            raise BadInput(f"not found: {path}")
+    store = Store(args.store)
+    lexicon = Lexicon(open_bundle(store))
+    try:
+        queries = read_queries(args.queries)
+    except ValueError as exc:
+        raise BadInput(str(exc)) from exc
+    print(f"indexing {args.postings} (reused when the dump is unchanged) ...", file=sys.stderr)
+    index = SearchIndex(args.postings, args.store / "search-index")
+    report = evaluate(lexicon, DecisionStore(store.decisions_path).snapshot(), index, queries, ExpansionOptions(), ks)
+    for path in write_report(report, args.out, lexicon.version):
+        print(f"wrote {path}")
+    rows = [("metric", "baseline", "expanded")]
+    rows += [(m, f"{report['baseline'][m]:.4f}", f"{report['expanded'][m]:.4f}") for m in report["baseline"]]
+    print(_table(rows))
     return EXIT_OK
 
 
