@@ -26,6 +26,7 @@ from service.decisions import DecisionSet
 from service.result import Clause, Dropped, Expansion, ExpansionResult, ModelInfo, Segment
 from service.segment import Piece, display, segment_query
 from training.bundle import Bundle
+from training.config import DEFAULT_CONNECTORS
 from training.neighbours import top_k_for_vector
 from training.tokenize import PHRASE_JOINER
 
@@ -49,30 +50,8 @@ DEFAULT_MODIFIERS = [
     "weekend",
     "lead",
 ]
-DEFAULT_STOP_WORDS = [
-    "a",
-    "an",
-    "and",
-    "at",
-    "by",
-    "for",
-    "from",
-    "in",
-    "of",
-    "on",
-    "or",
-    "the",
-    "to",
-    "with",
-    "without",
-    "job",
-    "jobs",
-    "vacancy",
-    "vacancies",
-    "work",
-    "near",
-    "me",
-]
+# Connector words (the phrase miner's own list) and words seekers add that name no job.
+DEFAULT_STOP_WORDS = [*DEFAULT_CONNECTORS, "job", "jobs", "vacancy", "vacancies", "work", "near", "me"]
 
 
 class ExpansionOptions(BaseModel):
