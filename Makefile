@@ -26,6 +26,7 @@ demo: $(BIN)/.installed $(DEMO)/postings.jsonl
 	$(BIN)/widen train --corpus $(DEMO)/postings.jsonl --store $(STORE) --config demo_postings/widen.toml || [ $$? -eq 3 ]
 	$(BIN)/widen bundles --store $(STORE)
 	$(BIN)/widen expand 'lorry driver' --store $(STORE)
+	$(BIN)/widen evaluate --store $(STORE) --postings $(DEMO)/postings.jsonl --queries $(DEMO)/queries.jsonl --out build/eval
 	@echo "serving the demo store; Ctrl-C stops it"
 	$(BIN)/widen serve --store $(STORE) --port $(PORT)
 

@@ -524,4 +524,5 @@ def app_from_environment() -> FastAPI:
     """The factory uvicorn's workers call: settings from WIDEN_* variables."""
     _configure_logging()
     logging.basicConfig(level=logging.INFO, format="%(levelname)s %(name)s: %(message)s")
+    logging.getLogger("gensim").setLevel(logging.WARNING)
     return create_app(Settings())

@@ -228,3 +228,36 @@ def test_print_config_writes_every_default_and_reads_back(tmp_path: Path, capsys
     path = tmp_path / "printed.toml"
     path.write_text(text, encoding="utf-8")
     assert load_config(path) == load_config(None)
+
+
+def test_gate_on_search_impact_compares_with_the_serving_bundle(store_copy: Path, demo_dir: Path) -> None:
+    impact = {"gate.queries": str(demo_dir / "queries.jsonl")}
+    outcome = train_quietly(
+        demo_dir / "postings.jsonl", store_copy, demo_config(demo_dir, **impact, **{"embedding.seed": 3})
+    )
+    details = Store(store_copy).manifest(outcome.version)["gate"]["details"]["impact"]
+    assert set(details["candidate"]) == {"recall@100", "ndcg@10", "exact_first"}
+    assert details["current"] is not None and details["candidate"]["ndcg@10"] > 0.5
+    assert outcome.promoted, outcome.gate.reasons
+    # A model that learned nothing expands to noise: the impact gate refuses it too.
+    broken = train_quietly(demo_dir / "postings.jsonl", store_copy, demo_config(demo_dir, **impact, **BROKEN))
+    assert not broken.promoted
+    assert any(r.startswith("search impact:") for r in broken.gate.reasons), broken.gate.reasons
+    assert Store(store_copy).current_version() == outcome.version
+
+
+def test_gate_queries_file_is_checked_before_any_work(tmp_path: Path, demo_dir: Path) -> None:
+    bad = tmp_path / "queries.jsonl"
+    bad.write_text("{not a query}\n", encoding="utf-8")
+    config = tmp_path / "c.toml"
+    config.write_text(f'[gate]\nqueries = "{bad}"\n', encoding="utf-8")
+    args = [
+        "train",
+        "--corpus",
+        str(demo_dir / "postings.jsonl"),
+        "--store",
+        str(tmp_path / "s"),
+        "--config",
+        str(config),
+    ]
+    assert main(args) == 2

@@ -114,6 +114,41 @@ def write_manifest(folder: Path, manifest: dict[str, Any]) -> dict[str, Any]:
     return manifest
 
 
+def read_manifest(folder: Path) -> dict[str, Any]:
+    path = folder / MANIFEST
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+    except FileNotFoundError as exc:
+        raise BundleError(f"no bundle {folder.name} in {folder.parent.parent}") from exc
+    except (json.JSONDecodeError, UnicodeDecodeError) as exc:
+        raise BundleError(f"bundle {folder.name}: manifest.json is not valid JSON") from exc
+    if not isinstance(data, dict):
+        raise BundleError(f"bundle {folder.name}: manifest.json is not an object")
+    return data
+
+
+def verify_folder(folder: Path) -> list[str]:
+    """Problems found checking every file of a bundle folder against its manifest."""
+    version = folder.name
+    try:
+        manifest = read_manifest(folder)
+    except BundleError as exc:
+        return [str(exc)]
+    if manifest.get("format_version") != FORMAT_VERSION:
+        return [f"bundle {version}: format_version {manifest.get('format_version')!r} is not {FORMAT_VERSION}"]
+    problems = []
+    files = manifest.get("files") or {}
+    required = (VECTORS, NORMED_VECTORS, OUTPUT_VECTORS, NEIGHBOURS_INDEX, NEIGHBOURS_SIMILARITY, PHRASES, PROTECTED)
+    problems += [f"bundle {version}: manifest lists no {name}" for name in required if name not in files]
+    for name, expected in files.items():
+        path = folder / name
+        if not path.is_file():
+            problems.append(f"bundle {version}: {name} is missing")
+        elif sha256_file(path) != expected:
+            problems.append(f"bundle {version}: {name} does not match its sha256 in the manifest")
+    return problems
+
+
 @dataclass(frozen=True)
 class BundleInfo:
     version: str
@@ -165,46 +200,11 @@ class Store:
         return sorted(p.name for p in self.bundles.iterdir() if (p / MANIFEST).is_file())
 
     def manifest(self, version: str) -> dict[str, Any]:
-        path = self.bundle_dir(version) / MANIFEST
-        try:
-            data = json.loads(path.read_text(encoding="utf-8"))
-        except FileNotFoundError as exc:
-            raise BundleError(f"no bundle {version} in {self.root}") from exc
-        except (json.JSONDecodeError, UnicodeDecodeError) as exc:
-            raise BundleError(f"bundle {version}: manifest.json is not valid JSON") from exc
-        if not isinstance(data, dict):
-            raise BundleError(f"bundle {version}: manifest.json is not an object")
-        return data
+        return read_manifest(self.bundle_dir(version))
 
     def verify(self, version: str) -> list[str]:
         """Problems found checking every file against the manifest; empty when the bundle is sound."""
-        try:
-            manifest = self.manifest(version)
-        except BundleError as exc:
-            return [str(exc)]
-        if manifest.get("format_version") != FORMAT_VERSION:
-            return [f"bundle {version}: format_version {manifest.get('format_version')!r} is not {FORMAT_VERSION}"]
-        folder = self.bundle_dir(version)
-        problems = []
-        files = manifest.get("files") or {}
-        for name in (
-            VECTORS,
-            NORMED_VECTORS,
-            OUTPUT_VECTORS,
-            NEIGHBOURS_INDEX,
-            NEIGHBOURS_SIMILARITY,
-            PHRASES,
-            PROTECTED,
-        ):
-            if name not in files:
-                problems.append(f"bundle {version}: manifest lists no {name}")
-        for name, expected in files.items():
-            path = folder / name
-            if not path.is_file():
-                problems.append(f"bundle {version}: {name} is missing")
-            elif sha256_file(path) != expected:
-                problems.append(f"bundle {version}: {name} does not match its sha256 in the manifest")
-        return problems
+        return verify_folder(self.bundle_dir(version))
 
     def read_journal(self) -> list[dict[str, Any]]:
         try:
@@ -353,13 +353,12 @@ class Bundle:
 
     def __init__(self, folder: Path, verify: bool = True) -> None:
         self.folder = Path(folder)
-        store = Store(self.folder.parent.parent)
         version = self.folder.name
         if verify:
-            problems = store.verify(version)
+            problems = verify_folder(self.folder)
             if problems:
                 raise BundleError("; ".join(problems))
-        self.manifest = store.manifest(version)
+        self.manifest = read_manifest(self.folder)
         self.version: str = self.manifest["version"]
         self.created_at: str = self.manifest["created_at"]
         try:

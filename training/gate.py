@@ -137,9 +137,19 @@ def decide(
     current: dict[str, Any] | None,
     config: GateSection,
     structure_problems: list[str],
+    impact: dict[str, Any] | None = None,
+    current_impact: dict[str, Any] | None = None,
 ) -> GateResult:
-    """Combine the structural checks, the absolute floor and the comparison with the serving bundle."""
+    """Combine the structural checks, the absolute floor, the comparison with the serving bundle
+    and, when configured, the search impact on labelled queries."""
     reasons = list(structure_problems)
+    if impact is not None and current_impact is not None:
+        for metric in ("recall@100", "ndcg@10"):
+            if impact[metric] < current_impact[metric] - config.impact_tolerance:
+                reasons.append(
+                    f"search impact: expanded {metric} {impact[metric]:.4f} is more than gate.impact_tolerance = "
+                    f"{config.impact_tolerance:.3f} below the serving bundle's {current_impact[metric]:.4f}"
+                )
     score = candidate["score"] if candidate else None
     current_score = current["score"] if current else None
     if candidate is None:
@@ -153,4 +163,6 @@ def decide(
                 f"score {score:.3f} is more than gate.tolerance = {config.tolerance:.3f} "
                 f"below the serving bundle's {current_score:.3f}"
             )
+    if impact is not None:
+        details["impact"] = {"candidate": impact, "current": current_impact}
     return GateResult(not reasons, score, current_score, reasons, details)

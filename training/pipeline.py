@@ -257,6 +257,51 @@ def _current_gate_score(store: Store, pairs: list[Any] | None, config: TrainConf
     return score_pairs(current.index, current.neighbour_index, current.neighbour_similarity, pairs, config.gate)
 
 
+def _draft_manifest(
+    version: str, corpus_path: Path, corpus_sha: str, config: TrainConfig, vocabulary: int, phrases: int
+) -> dict[str, Any]:
+    """Enough of a manifest for the candidate to open like any bundle before the gate decides."""
+    return {
+        "format_version": FORMAT_VERSION,
+        "version": version,
+        "created_at": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()),
+        "corpus": {"path": str(corpus_path), "sha256": corpus_sha},
+        "config": config.model_dump(),
+        "vocabulary_size": vocabulary,
+        "phrase_count": phrases,
+    }
+
+
+def _impact(
+    store: Store, work: Path, draft: dict[str, Any], config: TrainConfig, corpus_path: Path, out: IO[str]
+) -> tuple[dict[str, float], dict[str, float] | None]:
+    """Expanded recall@100, nDCG@10 and exact-first of the candidate and of the serving bundle."""
+    from service.decisions import DecisionStore
+    from service.evaluation import evaluate, read_queries
+    from service.expansion import ExpansionOptions, Lexicon
+    from service.search_index import SearchIndex
+
+    write_manifest(work, draft)  # replaced by the full manifest once the gate has decided
+    queries = read_queries(Path(config.gate.queries))
+    postings = Path(config.gate.postings) if config.gate.postings else corpus_path
+    print(f"[gate] search impact on {len(queries)} labelled queries", file=out, flush=True)
+    index = SearchIndex(postings, store.root / "search-index")
+    decisions = DecisionStore(store.decisions_path).snapshot()
+
+    def score(lexicon: Lexicon) -> dict[str, float]:
+        report = evaluate(lexicon, decisions, index, queries, ExpansionOptions())
+        return {k: report["expanded"][k] for k in ("recall@100", "ndcg@10", "exact_first")}
+
+    candidate = score(Lexicon(layout.Bundle(work, verify=False)))
+    current = None
+    if store.current_version() is not None:
+        try:
+            current = score(Lexicon(open_bundle(store)))
+        except layout.BundleError as exc:
+            log.warning("the serving bundle cannot be evaluated (%s); search impact is not compared", exc)
+    return candidate, current
+
+
 def train(
     corpus_path: Path,
     store_root: Path,
@@ -273,6 +318,15 @@ def train(
         pairs = read_pairs(Path(config.gate.pairs)) if config.gate.pairs else None
     except PairsError as exc:
         raise BadInput(str(exc)) from exc
+    if config.gate.queries:
+        from service.evaluation import read_queries
+
+        try:
+            read_queries(Path(config.gate.queries))
+        except (OSError, ValueError) as exc:
+            raise BadInput(f"gate.queries: {exc}") from exc
+        if config.gate.postings and not Path(config.gate.postings).is_file():
+            raise BadInput(f"gate.postings not found: {config.gate.postings}")
     store = Store(store_root)
     with store.locked():
         cleared = store.clear_debris()
@@ -302,6 +356,7 @@ def train(
             t = time.monotonic()
             model = _word2vec(phrased, config, out)
             seconds["skip-gram"] = time.monotonic() - t
+            shutil.rmtree(scratch_dir)  # the scratch corpus is not part of the bundle
 
             t = time.monotonic()
             wv = model.wv
@@ -338,12 +393,14 @@ def train(
             t = time.monotonic()
             candidate_score = score_pairs(wv.key_to_index, nbr_idx, nbr_sim, pairs, config.gate) if pairs else None
             current_score = _current_gate_score(store, pairs, config)
-            gate = decide(candidate_score, current_score, config.gate, _structure_problems(model))
+            impact = current_impact = None
+            problems = _structure_problems(model)
+            if config.gate.queries and not problems:
+                draft = _draft_manifest(version, corpus_path, corpus_sha, config, len(wv), len(table))
+                impact, current_impact = _impact(store, work, draft, config, corpus_path, out)
+            gate = decide(candidate_score, current_score, config.gate, problems, impact, current_impact)
             seconds["gate"] = time.monotonic() - t
 
-            for item in scratch_dir.iterdir():
-                item.unlink()
-            scratch_dir.rmdir()
             promote = gate.passed or force
             manifest = {
                 "format_version": FORMAT_VERSION,
