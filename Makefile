@@ -28,7 +28,7 @@ demo: $(BIN)/.installed $(DEMO)/postings.jsonl
 	$(BIN)/widen expand 'lorry driver' --store $(STORE)
 	$(BIN)/widen evaluate --store $(STORE) --postings $(DEMO)/postings.jsonl --queries $(DEMO)/queries.jsonl --out build/eval
 	@echo "serving the demo store; Ctrl-C stops it"
-	$(BIN)/widen serve --store $(STORE) --port $(PORT)
+	$(BIN)/widen serve --store $(STORE) --port $(PORT) --demo-index $(DEMO)/postings.jsonl
 
 lint: $(BIN)/.installed
 	$(BIN)/ruff check service training tests demo_postings bench

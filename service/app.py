@@ -499,6 +499,12 @@ def create_app(settings: Settings, holder: ModelHolder | None = None, watch: boo
         holder.check_decisions()
         return ReloadResponse(result=result, version=holder.serving.version if holder.serving else None)
 
+    if settings.demo_index is not None:
+        from service.demo_page import add_demo_routes
+        from service.search_index import SearchIndex
+
+        add_demo_routes(app, SearchIndex(settings.demo_index, settings.store / "search-index"))
+
     if settings.cors_origins:
         app.add_middleware(
             CORSMiddleware,

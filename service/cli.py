@@ -107,6 +107,7 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("--host")
     p.add_argument("--port", type=int)
     p.add_argument("--workers", type=int)
+    p.add_argument("--demo-index", type=Path, metavar="POSTINGS", help="also serve the demo search page over this dump")
     p.set_defaults(handler=_serve)
 
     p = sub.add_parser(
@@ -188,7 +189,13 @@ def _serve(args: argparse.Namespace) -> int:
     from service.settings import Settings
 
     # Flags become WIDEN_* variables so that every worker process reads the same settings.
-    for flag, name in (("store", "STORE"), ("host", "HOST"), ("port", "PORT"), ("workers", "WORKERS")):
+    for flag, name in (
+        ("store", "STORE"),
+        ("host", "HOST"),
+        ("port", "PORT"),
+        ("workers", "WORKERS"),
+        ("demo_index", "DEMO_INDEX"),
+    ):
         value = getattr(args, flag)
         if value is not None:
             os.environ[f"WIDEN_{name}"] = str(value.resolve() if isinstance(value, Path) else value)
@@ -199,7 +206,10 @@ def _serve(args: argparse.Namespace) -> int:
     print(f"widen serving {settings.store} with {settings.workers} worker(s)")
     print(f"  API           {base}/v1/expand?q=lorry+driver")
     print(f"  OpenAPI       {base}/openapi.json  (browsable at {base}/docs)")
-    print(f"  health        {base}/healthz  {base}/readyz  {base}/metrics", flush=True)
+    print(f"  health        {base}/healthz  {base}/readyz  {base}/metrics")
+    if settings.demo_index is not None:
+        print(f"  demo search   {base}/demo")
+    sys.stdout.flush()
     # Hand the process over to uvicorn: with several workers its supervisor then holds none of
     # widen's libraries, only the workers do (each loads the app from WIDEN_* variables).
     command = [sys.executable, "-m", "uvicorn", "service.app:app_from_environment", "--factory"]
