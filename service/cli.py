@@ -143,6 +143,12 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("--queries", type=Path, required=True, help="labelled queries, JSON Lines")
     p.add_argument("--out", type=Path, required=True, help="folder for report.json, report.md, runs, plots")
     p.add_argument("--k", default="10,100", help="recall cut-offs, comma separated (default 10,100)")
+    p.add_argument(
+        "--baseline-boost",
+        type=float,
+        default=10.0,
+        help="the expanded query is (baseline)^B OR (query_text); 0 sends query_text alone (default 10)",
+    )
     p.set_defaults(handler=_evaluate)
 
     p = sub.add_parser(
@@ -260,7 +266,10 @@ def _evaluate(args: argparse.Namespace) -> int:
         raise BadInput(str(exc)) from exc
     print(f"indexing {args.postings} (reused when the dump is unchanged) ...", file=sys.stderr)
     index = SearchIndex(args.postings, args.store / "search-index")
-    report = evaluate(lexicon, DecisionStore(store.decisions_path).snapshot(), index, queries, ExpansionOptions(), ks)
+    if args.baseline_boost < 0:
+        raise BadInput("--baseline-boost must be 0 or more")
+    decisions = DecisionStore(store.decisions_path).snapshot()
+    report = evaluate(lexicon, decisions, index, queries, ExpansionOptions(), ks, args.baseline_boost)
     for path in write_report(report, args.out, lexicon.version):
         print(f"wrote {path}")
     rows = [("metric", "baseline", "expanded")]

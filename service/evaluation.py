@@ -21,7 +21,17 @@ from service.expansion import ExpansionOptions, Lexicon, expand, render_query_te
 from service.result import ExpansionResult
 from service.search_index import SearchIndex
 
-__all__ = ["LabelledQuery", "read_queries", "recall_at", "ndcg_at", "reciprocal_rank", "evaluate", "write_report"]
+__all__ = [
+    "BASELINE_BOOST",
+    "LabelledQuery",
+    "evaluate",
+    "merged_text",
+    "ndcg_at",
+    "read_queries",
+    "recall_at",
+    "reciprocal_rank",
+    "write_report",
+]
 
 RUN_DEPTH = 100
 
@@ -86,6 +96,18 @@ def _baseline_text(result: ExpansionResult, options: ExpansionOptions) -> str:
     return render_query_text(originals, len(result.segments), options.operator)
 
 
+#: How a front end keeps the seeker's exact matches first: the baseline query, boosted this much,
+#: OR the service's query_text. 0 sends query_text as it is.
+BASELINE_BOOST = 10.0
+
+
+def merged_text(baseline_text: str, query_text: str, baseline_boost: float) -> str:
+    """The expanded query a front end sends: `(baseline)^B OR (query_text)`, or query_text alone."""
+    if baseline_boost <= 0 or not baseline_text:
+        return query_text
+    return f"({baseline_text})^{baseline_boost:g} OR ({query_text})"
+
+
 def evaluate(
     lexicon: Lexicon,
     decisions: DecisionSet,
@@ -93,8 +115,13 @@ def evaluate(
     queries: list[LabelledQuery],
     options: ExpansionOptions,
     ks: Sequence[int] = (10, 100),
+    baseline_boost: float = BASELINE_BOOST,
 ) -> dict[str, Any]:
-    """Run baseline and expanded for every query; metrics, per family, the worst ten, and the runs."""
+    """Run baseline and expanded for every query; metrics, per family, the worst ten, and the runs.
+
+    Expanded is `merged_text(baseline, query_text, baseline_boost)`: with the default boost the
+    postings that match the seeker's words come first and the expansions fill in after them.
+    """
     runs: dict[str, dict[str, dict[str, float]]] = {"baseline": {}, "expanded": {}}
     rows = []
     for q in queries:
@@ -102,7 +129,8 @@ def evaluate(
         baseline_text = _baseline_text(result, options)
         base_hits = {h.id: h.score for h in index.search(baseline_text, RUN_DEPTH)}
         matches_original = index.matching(baseline_text)
-        exp_hits = {h.id: h.score for h in index.search(result.query_text, RUN_DEPTH)}
+        expanded_text = merged_text(baseline_text, result.query_text, baseline_boost)
+        exp_hits = {h.id: h.score for h in index.search(expanded_text, RUN_DEPTH)}
         runs["baseline"][q.id] = base_hits
         runs["expanded"][q.id] = exp_hits
         base_rank, exp_rank = trec_order(base_hits), trec_order(exp_hits)
@@ -149,6 +177,7 @@ def evaluate(
     return {
         **summary,
         "queries": n,
+        "baseline_boost": baseline_boost,
         "per_family": per_family,
         "worst": [
             {
@@ -226,7 +255,10 @@ def write_report(report: dict[str, Any], out: Path, model_version: str) -> list[
     lines = [
         f"# Search impact of widen (bundle {model_version})",
         "",
-        f"{report['queries']} labelled queries, tantivy BM25 (title weighted above description).",
+        f"{report['queries']} labelled queries, tantivy BM25 (title weighted above description). "
+        f"Expanded query: (baseline)^{report['baseline_boost']:g} OR (query_text)"
+        if report["baseline_boost"]
+        else f"{report['queries']} labelled queries, tantivy BM25; expanded query: query_text as it is.",
         "",
         "| metric | baseline | expanded |",
         "|---|---|---|",

@@ -126,3 +126,20 @@ def test_cli_evaluate_reuses_the_index(trained_store: Path, demo_dir: Path, tmp_
 
 def read_queries_lines(path: Path, n: int) -> list[str]:
     return path.read_text(encoding="utf-8").splitlines(keepends=True)[:n]
+
+
+def test_boosted_baseline_keeps_exact_matches_first(evaluated: tuple[dict, Path]) -> None:
+    report, _ = evaluated
+    assert report["baseline_boost"] == 10.0
+    # Targets of the search-impact issue that the demo can meet: exact first, nDCG not below.
+    assert report["expanded"]["exact_first"] >= 0.95
+    assert report["expanded"]["ndcg@10"] >= report["baseline"]["ndcg@10"]
+
+
+def test_merged_text_is_the_baseline_boosted_or_the_query_text() -> None:
+    from service.evaluation import merged_text
+
+    assert (
+        merged_text('"rn"^1', '("rn"^1 OR "staff nurse"^0.4)', 10) == '("rn"^1)^10 OR (("rn"^1 OR "staff nurse"^0.4))'
+    )
+    assert merged_text('"rn"^1', '"rn"^1', 0) == '"rn"^1'
