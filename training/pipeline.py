@@ -246,13 +246,21 @@ def _structure_problems(model: Word2Vec) -> list[str]:
     return problems
 
 
-def _current_gate_score(store: Store, pairs: list[Any] | None, config: TrainConfig) -> dict[str, Any] | None:
-    if pairs is None or store.current_version() is None:
+def _serving_bundle(store: Store) -> layout.Bundle | None:
+    """The serving bundle, verified once for both gate comparisons; None when there is none usable."""
+    if store.current_version() is None:
         return None
     try:
-        current = open_bundle(store)
+        return open_bundle(store)
     except layout.BundleError as exc:
-        log.warning("the serving bundle cannot be scored (%s); comparing with the floor only", exc)
+        log.warning("the serving bundle cannot be compared (%s); checking the floors only", exc)
+        return None
+
+
+def _current_gate_score(
+    current: layout.Bundle | None, pairs: list[Any] | None, config: TrainConfig
+) -> dict[str, Any] | None:
+    if pairs is None or current is None:
         return None
     return score_pairs(current.index, current.neighbour_index, current.neighbour_similarity, pairs, config.gate)
 
@@ -273,7 +281,13 @@ def _draft_manifest(
 
 
 def _impact(
-    store: Store, work: Path, draft: dict[str, Any], config: TrainConfig, corpus_path: Path, out: IO[str]
+    store: Store,
+    serving: layout.Bundle | None,
+    work: Path,
+    draft: dict[str, Any],
+    config: TrainConfig,
+    corpus_path: Path,
+    out: IO[str],
 ) -> tuple[dict[str, float], dict[str, float] | None]:
     """Expanded recall@100, nDCG@10 and exact-first of the candidate and of the serving bundle."""
     from service.decisions import DecisionStore
@@ -293,13 +307,7 @@ def _impact(
         return {k: report["expanded"][k] for k in ("recall@100", "ndcg@10", "exact_first")}
 
     candidate = score(Lexicon(layout.Bundle(work, verify=False)))
-    current = None
-    if store.current_version() is not None:
-        try:
-            current = score(Lexicon(open_bundle(store)))
-        except layout.BundleError as exc:
-            log.warning("the serving bundle cannot be evaluated (%s); search impact is not compared", exc)
-    return candidate, current
+    return candidate, (score(Lexicon(serving)) if serving is not None else None)
 
 
 def train(
@@ -392,12 +400,13 @@ def train(
 
             t = time.monotonic()
             candidate_score = score_pairs(wv.key_to_index, nbr_idx, nbr_sim, pairs, config.gate) if pairs else None
-            current_score = _current_gate_score(store, pairs, config)
+            serving = _serving_bundle(store) if pairs or config.gate.queries else None
+            current_score = _current_gate_score(serving, pairs, config)
             impact = current_impact = None
             problems = _structure_problems(model)
             if config.gate.queries and not problems:
                 draft = _draft_manifest(version, corpus_path, corpus_sha, config, len(wv), len(table))
-                impact, current_impact = _impact(store, work, draft, config, corpus_path, out)
+                impact, current_impact = _impact(store, serving, work, draft, config, corpus_path, out)
             gate = decide(candidate_score, current_score, config.gate, problems, impact, current_impact)
             seconds["gate"] = time.monotonic() - t
 
