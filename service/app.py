@@ -209,6 +209,7 @@ class Edge:
                     self.telemetry.cache_hits.inc()
                     await Response(found, media_type="application/json")(scope, receive, send_with_id)
                     return
+                scope["widen.edge_caches"] = True  # the handler need not cache this response again
                 send_with_id = _keep_body(send_with_id, self.cache, key)
             if scope["method"] in ("POST", "PUT", "PATCH", "DELETE"):
                 body = await _read_limited(receive, self.settings.max_body_bytes)
@@ -391,7 +392,9 @@ def create_app(settings: Settings, holder: ModelHolder | None = None, watch: boo
         _check_query(query, field)
         return expand(serving.lexicon, holder.decisions, query, _options(body))
 
-    def _cached(query: str, body: _Options, field: str) -> Response:
+    def _cached(query: str, body: _Options, field: str, edge_caches: bool = False) -> Response:
+        if edge_caches:  # the edge missed this key a moment ago and will keep the response itself
+            return _json(_expand(query, body, field))
         serving, decisions = holder.serving, holder.decisions
         key = (
             serving.version if serving else None,
@@ -417,6 +420,7 @@ def create_app(settings: Settings, holder: ModelHolder | None = None, watch: boo
 
     @app.get("/v1/expand", response_model=ExpansionResult, responses=ERRORS, tags=["expand"])
     async def expand_get(
+        request: Request,
         q: str = Query(min_length=1, max_length=256, description="the seeker's query"),
         max: int | None = Query(default=None, ge=1, le=50),
         min_similarity: float | None = Query(default=None, ge=0.0, le=1.0),
@@ -428,7 +432,7 @@ def create_app(settings: Settings, holder: ModelHolder | None = None, watch: boo
         body = _Options.model_construct(
             max=max, min_similarity=min_similarity, explain=explain, original_boost=original_boost, operator=operator
         )
-        return _cached(q, body, "q")
+        return _cached(q, body, "q", bool(request.scope.get("widen.edge_caches")))
 
     @app.post("/v1/expand", response_model=ExpansionResult, responses=ERRORS, tags=["expand"])
     async def expand_post(body: ExpandRequest) -> Response:
