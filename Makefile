@@ -26,9 +26,9 @@ demo: $(BIN)/.installed $(DEMO)/postings.jsonl
 	$(BIN)/widen train --corpus $(DEMO)/postings.jsonl --store $(STORE) --config demo_postings/widen.toml || [ $$? -eq 3 ]
 	$(BIN)/widen bundles --store $(STORE)
 	$(BIN)/widen expand 'lorry driver' --store $(STORE)
-	$(BIN)/widen evaluate --store $(STORE) --postings $(DEMO)/postings.jsonl --queries $(DEMO)/queries.jsonl --out build/eval
+	$(BIN)/widen evaluate --store $(STORE) --postings $(DEMO)/open_postings.jsonl --queries $(DEMO)/queries.jsonl --out build/eval
 	@echo "serving the demo store; Ctrl-C stops it"
-	$(BIN)/widen serve --store $(STORE) --port $(PORT) --demo-index $(DEMO)/postings.jsonl
+	$(BIN)/widen serve --store $(STORE) --port $(PORT) --demo-index $(DEMO)/open_postings.jsonl
 
 lint: $(BIN)/.installed
 	$(BIN)/ruff check service training tests demo_postings bench

@@ -668,6 +668,10 @@ def _article(title: str) -> str:
     return "an" if spoken_vowel else "a"
 
 
+# Postings stay open about a week on this board; the dump spans 60 days.
+OPEN_DAYS = 7
+
+
 def _fill(template: str, title: str) -> str:
     """Put the title into a sentence, with the article that goes before it."""
     return re.sub(r"\b(?:a|an) \{t\}", f"{_article(title)} {title}", template).format(t=title)
@@ -793,7 +797,7 @@ def _pairs(families: list[Family]) -> list[tuple[str, str, str]]:
     return rows
 
 
-def generate(out: Path, postings: int, seed: int) -> None:
+def generate(out: Path, postings: int, seed: int, open_days: int = OPEN_DAYS) -> None:
     rng = random.Random(seed)
     day0 = date(2026, 11, 30)
     # Larger families get more postings, as on a real board.
@@ -814,8 +818,17 @@ def generate(out: Path, postings: int, seed: int) -> None:
         for row in rows:
             public = {k: v for k, v in row.items() if not k.startswith("_")}
             fh.write(json.dumps(public, ensure_ascii=False) + "\n")
+    # The live search index holds only the postings still open: those of the last `open_days` days.
+    # The dump (postings.jsonl) is the board's history, which is what training learns from.
+    first_open = (day0 - timedelta(days=open_days - 1)).isoformat()
+    open_rows = [row for row in rows if row["posted_at"] >= first_open]
+    with (out / "open_postings.jsonl").open("w", encoding="utf-8", newline="\n") as fh:
+        for row in open_rows:
+            public = {k: v for k, v in row.items() if not k.startswith("_")}
+            fh.write(json.dumps(public, ensure_ascii=False) + "\n")
+    # Relevance is judged over the open postings, the index a seeker searches.
     with (out / "queries.jsonl").open("w", encoding="utf-8", newline="\n") as fh:
-        for query in _queries(FAMILIES, rows, rng):
+        for query in _queries(FAMILIES, open_rows, rng):
             fh.write(json.dumps(query, ensure_ascii=False) + "\n")
     truth = {"families": [{"name": f.name, "equivalent": f.equivalent, "related": f.related} for f in FAMILIES]}
     (out / "truth.json").write_text(json.dumps(truth, indent=2) + "\n", encoding="utf-8")
@@ -833,10 +846,18 @@ def main(argv: list[str] | None = None) -> None:
     parser.add_argument("--out", type=Path, required=True, help="folder to write into (created if missing)")
     parser.add_argument("--postings", type=int, default=20000, help="number of postings (default 20000)")
     parser.add_argument("--seed", type=int, default=7, help="random seed (default 7)")
+    parser.add_argument(
+        "--open-days",
+        type=int,
+        default=OPEN_DAYS,
+        help=f"postings of the last N days form open_postings.jsonl, the search index (default {OPEN_DAYS})",
+    )
     args = parser.parse_args(argv)
     if args.postings < 1:
         parser.error("--postings must be at least 1")
-    generate(args.out, args.postings, args.seed)
+    if args.open_days < 1:
+        parser.error("--open-days must be at least 1")
+    generate(args.out, args.postings, args.seed, args.open_days)
     print(f"wrote {args.postings} postings to {args.out}")
 
 

@@ -135,7 +135,7 @@ def _parser() -> argparse.ArgumentParser:
         description="Index the postings with tantivy (once per dump), run every labelled query as the "
         "front end does today (the seeker's words only) and expanded (query_text), and report recall@k, "
         "nDCG@10, MRR and the exact-first rate, per family and for the ten queries that lost most.",
-        epilog="examples:\n  widen evaluate --store build/store --postings build/demo/postings.jsonl "
+        epilog="examples:\n  widen evaluate --store build/store --postings build/demo/open_postings.jsonl "
         "--queries build/demo/queries.jsonl --out build/eval",
     )
     p.add_argument("--store", type=Path, required=True)

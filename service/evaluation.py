@@ -279,9 +279,14 @@ def write_report(report: dict[str, Any], out: Path, model_version: str) -> list[
         lines.append(
             f"| {f} | {b['recall@100']:.3f} | {e['recall@100']:.3f} | {b['ndcg@10']:.3f} | {e['ndcg@10']:.3f} |"
         )
-    lines += ["", "## The ten queries that lost most nDCG@10", "", "| query | baseline | expanded |", "|---|---|---|"]
-    for w in report["worst"]:
-        lines.append(f"| {w['query']} | {w['ndcg@10']['baseline']:.3f} | {w['ndcg@10']['expanded']:.3f} |")
+    lines += ["", "## The ten queries that lost most nDCG@10", ""]
+    losses = [w["ndcg@10"]["expanded"] - w["ndcg@10"]["baseline"] for w in report["worst"]]
+    if all(loss >= 0 for loss in losses):
+        lines += ["No query lost nDCG@10 with expansion; these changed least.", ""]
+    lines += ["| query | baseline | expanded | change |", "|---|---|---|---|"]
+    for w, loss in zip(report["worst"], losses, strict=True):
+        b, e = w["ndcg@10"]["baseline"], w["ndcg@10"]["expanded"]
+        lines.append(f"| {w['query']} | {b:.3f} | {e:.3f} | {loss:+.3f} |")
     lines += ["", "![recall@k](recall_at_k.png)", "", "![recall gain per family](recall_gain_per_family.png)", ""]
     (out / "report.md").write_text("\n".join(lines), encoding="utf-8")
     written.append(out / "report.md")

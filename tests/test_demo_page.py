@@ -15,7 +15,7 @@ def test_demo_page_searches_plain_and_expanded(trained_store: Path, demo_dir: Pa
 
     store = tmp_path / "store"
     shutil.copytree(trained_store, store)
-    settings = Settings(store=store, access_log=False, demo_index=demo_dir / "postings.jsonl")
+    settings = Settings(store=store, access_log=False, demo_index=demo_dir / "open_postings.jsonl")
     with TestClient(create_app(settings)) as client:
         page = client.get("/demo")
         assert page.status_code == 200 and "/v1/expand?" in page.text and 'id="search"' in page.text

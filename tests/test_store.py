@@ -231,7 +231,7 @@ def test_print_config_writes_every_default_and_reads_back(tmp_path: Path, capsys
 
 
 def test_gate_on_search_impact_compares_with_the_serving_bundle(store_copy: Path, demo_dir: Path) -> None:
-    impact = {"gate.queries": str(demo_dir / "queries.jsonl")}
+    impact = {"gate.queries": str(demo_dir / "queries.jsonl"), "gate.postings": str(demo_dir / "open_postings.jsonl")}
     outcome = train_quietly(
         demo_dir / "postings.jsonl", store_copy, demo_config(demo_dir, **impact, **{"embedding.seed": 3})
     )
