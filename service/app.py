@@ -26,6 +26,7 @@ from pydantic import BaseModel, ConfigDict, Field
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from service.cache import ResultCache
+from service.decisions import DecisionError, DecisionMissing, DecisionStore, DecisionWithdrawn
 from service.expansion import ExpansionOptions, expand
 from service.lifecycle import ModelHolder
 from service.result import ExpansionResult
@@ -41,7 +42,33 @@ Receive = Callable[[], Awaitable[Message]]
 Send = Callable[[Message], Awaitable[None]]
 ASGIApp = Callable[[Scope, Receive, Send], Awaitable[None]]
 
-ROUTES = ("/v1/expand", "/v1/expand/batch", "/v1/model", "/healthz", "/readyz", "/metrics", "/v1/admin/reload")
+ROUTES = (
+    "/v1/expand",
+    "/v1/expand/batch",
+    "/v1/model",
+    "/healthz",
+    "/readyz",
+    "/metrics",
+    "/v1/admin/reload",
+    "/v1/decisions",
+    "/v1/decisions/export",
+    "/v1/decisions/import",
+)
+
+
+def route_label(path: str) -> str:
+    """The metrics label of a path: a known route, a family of routes, or other (bounded cardinality)."""
+    if path in ROUTES:
+        return path
+    if path.startswith("/v1/decisions/"):
+        return "/v1/decisions/{id}"
+    if path == "/debug" or path.startswith("/debug/"):
+        return "/debug"
+    if path == "/demo" or path.startswith("/demo/"):
+        return "/demo"
+    return "other"
+
+
 access_log = logging.getLogger("widen.access")
 
 
@@ -99,6 +126,44 @@ class ReloadResponse(BaseModel):
     version: str | None
 
 
+class DecisionRequest(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    phrase: str = Field(min_length=1, max_length=256, description="the phrase the decision is for, as typed")
+    neighbour: str | None = Field(default=None, max_length=256, description="for block and pin; null for never")
+    action: Literal["block", "pin", "never"]
+    weight: float | None = Field(default=None, gt=0.0, lt=1.0, description="for pin only: the clause weight")
+    reviewer: str = Field(min_length=1, max_length=100)
+    note: str | None = Field(default=None, max_length=1000)
+
+
+class DecisionOut(BaseModel):
+    id: int
+    phrase: str
+    neighbour: str | None
+    action: str
+    weight: float | None
+    reviewer: str
+    note: str | None
+    created_at: str
+    withdrawn_at: str | None
+    withdrawn_by: str | None
+
+
+class DecisionList(BaseModel):
+    decisions: list[DecisionOut]
+
+
+class DecisionExport(BaseModel):
+    format: Literal["widen-decisions"]
+    version: int
+    decisions: list[dict[str, Any]] = Field(max_length=100_000)
+
+
+class ImportResponse(BaseModel):
+    added: int
+
+
 ERRORS: dict[int | str, dict[str, Any]] = {
     code: {"model": ErrorBody, "description": text}
     for code, text in (
@@ -106,6 +171,7 @@ ERRORS: dict[int | str, dict[str, Any]] = {
         (401, "no token"),
         (403, "wrong token"),
         (404, "not found"),
+        (409, "conflict with the current state"),
         (413, "body too large"),
         (503, "no verified bundle loaded"),
     )
@@ -221,7 +287,7 @@ class Edge:
             await self.app(scope, receive, send_with_id)
         finally:
             path = scope.get("path", "")
-            route = path if path in ROUTES else "other"
+            route = route_label(path)
             seconds = time.perf_counter() - started
             self.telemetry.requests.labels(route, str(status["code"])).inc()
             self.telemetry.latency.labels(route).observe(seconds)
@@ -503,17 +569,125 @@ def create_app(settings: Settings, holder: ModelHolder | None = None, watch: boo
         holder.check_decisions()
         return ReloadResponse(result=result, version=holder.serving.version if holder.serving else None)
 
+    # -- reviewer decisions ------------------------------------------------------------
+
+    decision_store = DecisionStore(Store(settings.store).decisions_path)
+    review_token = settings.review_token.get_secret_value() if settings.review_token else ""
+
+    def _reviewer(request: Request) -> None:
+        if not review_token:
+            raise ApiError(403, "review_disabled", "this service has no review token (WIDEN_REVIEW_TOKEN): read-only")
+        header = request.headers.get("authorization", "")
+        if not header.startswith("Bearer ") or not header[7:]:
+            raise ApiError(401, "unauthorized", "a review token is required: Authorization: Bearer <token>")
+        if not hmac.compare_digest(header[7:].encode(), review_token.encode()):
+            raise ApiError(403, "forbidden", "the review token is wrong")
+
+    def _out(decision: Any) -> DecisionOut:
+        return DecisionOut(**decision.as_dict())
+
+    @app.get("/v1/decisions", response_model=DecisionList, responses=ERRORS, tags=["decisions"])
+    def decisions_list(
+        phrase: str | None = Query(default=None, max_length=256, description="only decisions for this phrase"),
+        action: Literal["block", "pin", "never"] | None = None,
+        state: Literal["active", "withdrawn", "all"] = "active",
+    ) -> DecisionList:
+        """Reviewer decisions, oldest first; `state=all` includes the withdrawn ones."""
+        from service.decisions import phrase_form
+
+        rows = decision_store.entries(include_withdrawn=state != "active")
+        if state == "withdrawn":
+            rows = [d for d in rows if d.withdrawn_at is not None]
+        if phrase is not None:
+            rows = [d for d in rows if d.phrase == phrase_form(phrase)]
+        if action is not None:
+            rows = [d for d in rows if d.action == action]
+        return DecisionList(decisions=[_out(d) for d in rows])
+
+    @app.post("/v1/decisions", status_code=201, response_model=DecisionOut, responses=ERRORS, tags=["decisions"])
+    def decisions_add(request: Request, body: DecisionRequest) -> DecisionOut:
+        """Block or pin a neighbour for a phrase, or never expand it (review token). In force in
+        this worker at once and in every worker within a second."""
+        _reviewer(request)
+        try:
+            made = decision_store.add(body.phrase, body.action, body.reviewer, body.neighbour, body.weight, body.note)
+        except DecisionError as exc:
+            raise ApiError(400, "invalid_decision", str(exc)) from exc
+        holder.check_decisions()
+        return _out(made)
+
+    @app.get("/v1/decisions/export", response_model=DecisionExport, tags=["decisions"])
+    def decisions_export() -> DecisionExport:
+        """The decisions in force, as JSON another store can import."""
+        return DecisionExport(**decision_store.export())
+
+    @app.post("/v1/decisions/import", response_model=ImportResponse, responses=ERRORS, tags=["decisions"])
+    def decisions_import(
+        request: Request,
+        body: DecisionExport,
+        reviewer: str = Query(min_length=1, max_length=100, description="who imports (recorded on each)"),
+    ) -> ImportResponse:
+        """Add every decision of an export, or none when one is invalid (review token)."""
+        _reviewer(request)
+        try:
+            added = decision_store.import_(body.model_dump(), reviewer)
+        except DecisionError as exc:
+            raise ApiError(400, "invalid_decision", str(exc)) from exc
+        holder.check_decisions()
+        return ImportResponse(added=added)
+
+    @app.delete("/v1/decisions/{decision_id}", response_model=DecisionOut, responses=ERRORS, tags=["decisions"])
+    def decisions_withdraw(
+        request: Request,
+        decision_id: int,
+        reviewer: str = Query(min_length=1, max_length=100, description="who undoes it"),
+        note: str | None = Query(default=None, max_length=1000),
+    ) -> DecisionOut:
+        """Undo a decision: it stops applying and stays in the audit trail (review token)."""
+        _reviewer(request)
+        try:
+            withdrawn = decision_store.withdraw(decision_id, reviewer, note)
+        except DecisionMissing as exc:
+            raise ApiError(404, "not_found", str(exc)) from exc
+        except DecisionWithdrawn as exc:
+            raise ApiError(409, "already_withdrawn", str(exc)) from exc
+        except DecisionError as exc:
+            raise ApiError(400, "invalid_decision", str(exc)) from exc
+        holder.check_decisions()
+        return _out(withdrawn)
+
+    # -- pages -------------------------------------------------------------------------
+
+    from service.review import add_review_routes
+    from service.search_index import SearchIndex
+
+    demo_index = None
     if settings.demo_index is not None:
         from service.demo_page import add_demo_routes
-        from service.search_index import SearchIndex
 
-        add_demo_routes(app, SearchIndex(settings.demo_index, settings.store / "search-index"))
+        demo_index = SearchIndex(settings.demo_index, settings.store / "search-index")
+        add_demo_routes(app, demo_index)
+    opened: dict[str, SearchIndex] = {}
+
+    def preview_index() -> SearchIndex | None:
+        """The demo index, else the newest index `widen evaluate` built in the store."""
+        if demo_index is not None:
+            return demo_index
+        path = SearchIndex.newest_built(settings.store / "search-index")
+        if path is None:
+            return None
+        if str(path) not in opened:
+            opened.clear()
+            opened[str(path)] = SearchIndex.open_built(path)
+        return opened[str(path)]
+
+    add_review_routes(app, settings, holder, defaults, preview_index)
 
     if settings.cors_origins:
         app.add_middleware(
             CORSMiddleware,
             allow_origins=settings.cors_origins,
-            allow_methods=["GET", "POST"],
+            allow_methods=["GET", "POST", "DELETE"],
             allow_headers=["Authorization", "Content-Type", "X-Request-ID"],
             expose_headers=["X-Request-ID"],
         )

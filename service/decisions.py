@@ -18,7 +18,16 @@ from typing import Any, Literal
 
 from training.tokenize import tokens
 
-__all__ = ["Action", "Decision", "DecisionSet", "DecisionStore", "DecisionError", "phrase_form"]
+__all__ = [
+    "Action",
+    "Decision",
+    "DecisionSet",
+    "DecisionStore",
+    "DecisionError",
+    "DecisionMissing",
+    "DecisionWithdrawn",
+    "phrase_form",
+]
 
 Action = Literal["block", "pin", "never"]
 ACTIONS: tuple[str, ...] = ("block", "pin", "never")
@@ -50,6 +59,14 @@ CREATE INDEX IF NOT EXISTS decisions_phrase ON decisions (phrase);
 
 class DecisionError(ValueError):
     """A decision that cannot be recorded; the message says why."""
+
+
+class DecisionMissing(DecisionError):
+    """No decision has that id."""
+
+
+class DecisionWithdrawn(DecisionError):
+    """The decision was already withdrawn."""
 
 
 def phrase_form(text: str) -> str:
@@ -227,10 +244,10 @@ class DecisionStore:
             row = conn.execute("SELECT * FROM decisions WHERE id = ?", (decision_id,)).fetchone()
             if row is None:
                 conn.execute("ROLLBACK")
-                raise DecisionError(f"no decision {decision_id}")
+                raise DecisionMissing(f"no decision {decision_id}")
             if row["withdrawn_at"] is not None:
                 conn.execute("ROLLBACK")
-                raise DecisionError(f"decision {decision_id} was already withdrawn")
+                raise DecisionWithdrawn(f"decision {decision_id} was already withdrawn")
             conn.execute(
                 "UPDATE decisions SET withdrawn_at = ?, withdrawn_by = ? WHERE id = ?",
                 (at, reviewer.strip(), decision_id),

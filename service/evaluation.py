@@ -91,7 +91,7 @@ def reciprocal_rank(ranked: Sequence[str], relevant: dict[str, int]) -> float:
     return 0.0
 
 
-def _baseline_text(result: ExpansionResult, options: ExpansionOptions) -> str:
+def baseline_text(result: ExpansionResult, options: ExpansionOptions) -> str:
     originals = [c for c in result.clauses if c.original]
     return render_query_text(originals, len(result.segments), options.operator)
 
@@ -126,10 +126,10 @@ def evaluate(
     rows = []
     for q in queries:
         result = expand(lexicon, decisions, q.query, options)
-        baseline_text = _baseline_text(result, options)
-        base_hits = {h.id: h.score for h in index.search(baseline_text, RUN_DEPTH)}
-        matches_original = index.matching(baseline_text)
-        expanded_text = merged_text(baseline_text, result.query_text, baseline_boost)
+        plain = baseline_text(result, options)
+        base_hits = {h.id: h.score for h in index.search(plain, RUN_DEPTH)}
+        matches_original = index.matching(plain)
+        expanded_text = merged_text(plain, result.query_text, baseline_boost)
         exp_hits = {h.id: h.score for h in index.search(expanded_text, RUN_DEPTH)}
         runs["baseline"][q.id] = base_hits
         runs["expanded"][q.id] = exp_hits

@@ -299,7 +299,11 @@ def _expand_piece(
             reason = "max_per_segment"
         if reason is not None:
             if options.explain:
-                dropped.append(Dropped.model_construct(phrase=e.phrase, similarity=round(similarity, 4), reason=reason))
+                dropped.append(
+                    Dropped.model_construct(
+                        phrase=e.phrase, similarity=round(similarity, 4), reason=reason, relation=relation
+                    )
+                )
             continue
         weight = weight_for(similarity, options) * (options.related_factor if relation == "related" else 1.0)
         kept.append(
@@ -370,9 +374,13 @@ def expand(lex: Lexicon, decisions: DecisionSet, query: str, options: ExpansionO
         final, over = [], []
         for n, e in enumerate(kept):
             if e.phrase in originals or e.phrase in emitted:
-                over.append(Dropped(phrase=e.phrase, similarity=e.similarity, reason="duplicate_clause"))
+                over.append(
+                    Dropped(phrase=e.phrase, similarity=e.similarity, reason="duplicate_clause", relation=e.relation)
+                )
             elif (s, n) not in keep:
-                over.append(Dropped(phrase=e.phrase, similarity=e.similarity, reason="max_clauses"))
+                over.append(
+                    Dropped(phrase=e.phrase, similarity=e.similarity, reason="max_clauses", relation=e.relation)
+                )
             else:
                 final.append(e)
                 emitted.add(e.phrase)

@@ -34,6 +34,7 @@ class Dropped(_Frozen):
     phrase: str
     similarity: float
     reason: str
+    relation: Relation | None = Field(default=None, description="the relation hint, where the model gave one")
 
 
 class Segment(_Frozen):

@@ -43,6 +43,25 @@ class SearchIndex:
         self.index = tantivy.Index.open(str(self.path))
         self.index.reload()
 
+    @classmethod
+    def open_built(cls, path: Path) -> SearchIndex:
+        """Open an index folder built earlier (its widen-index.json present), without its dump."""
+        meta = json.loads((Path(path) / "widen-index.json").read_text(encoding="utf-8"))
+        self = cls.__new__(cls)
+        self.sha256 = str(meta["sha256"])
+        self.path = Path(path)
+        self.index = tantivy.Index.open(str(self.path))
+        self.index.reload()
+        return self
+
+    @staticmethod
+    def newest_built(folder: Path) -> Path | None:
+        """The most recently built complete index under `folder`, if any."""
+        if not Path(folder).is_dir():
+            return None
+        built = [p for p in Path(folder).iterdir() if (p / "widen-index.json").is_file()]
+        return max(built, key=lambda p: (p / "widen-index.json").stat().st_mtime, default=None)
+
     @staticmethod
     def _schema() -> tantivy.Schema:
         builder = tantivy.SchemaBuilder()

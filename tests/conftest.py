@@ -59,3 +59,12 @@ def write_jsonl(path: Path, rows: list[object]) -> Path:
         for row in rows:
             fh.write((row if isinstance(row, str) else json.dumps(row)) + "\n")
     return path
+
+
+@pytest.fixture(scope="session")
+def two_bundle_store(trained_store: Path, demo_dir: Path, tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """The trained store plus a second bundle trained with another seed (to compare). Read-only."""
+    store = tmp_path_factory.mktemp("two") / "store"
+    shutil.copytree(trained_store, store)
+    train_quietly(demo_dir / "postings.jsonl", store, demo_config(demo_dir, **{"embedding.seed": 5}))
+    return store

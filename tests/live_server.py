@@ -1,0 +1,66 @@
+"""A real `widen serve` process on a free port, for the end-to-end and browser tests."""
+
+from __future__ import annotations
+
+import os
+import signal
+import socket
+import subprocess
+import sys
+import time
+from collections.abc import Iterator
+from contextlib import contextmanager
+from dataclasses import dataclass
+from pathlib import Path
+
+import httpx
+
+
+def free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return int(s.getsockname()[1])
+
+
+@dataclass
+class LiveServer:
+    base: str
+    process: subprocess.Popen[str]
+    log: list[str]
+
+
+@contextmanager
+def live_server(store: Path, env: dict[str, str] | None = None, args: tuple[str, ...] = ()) -> Iterator[LiveServer]:
+    """Start `widen serve` on `store`, wait until /readyz answers 200, stop it with SIGINT after."""
+    port = free_port()
+    process = subprocess.Popen(
+        [sys.executable, "-m", "service.cli", "serve", "--store", str(store), "--port", str(port), *args],
+        env=dict(os.environ, WIDEN_ACCESS_LOG="false", **(env or {})),
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+    )
+    base = f"http://127.0.0.1:{port}"
+    server = LiveServer(base, process, [])
+    try:
+        deadline = time.monotonic() + 60
+        while time.monotonic() < deadline:
+            if process.poll() is not None:
+                raise AssertionError(f"widen serve exited with {process.returncode}: {process.stderr.read()}")
+            try:
+                if httpx.get(f"{base}/readyz", timeout=1).status_code == 200:
+                    break
+            except httpx.TransportError:
+                time.sleep(0.1)
+        else:
+            raise AssertionError("widen serve did not become ready in 60 s")
+        yield server
+    finally:
+        if process.poll() is None:
+            process.send_signal(signal.SIGINT)
+        try:
+            _, err = process.communicate(timeout=20)
+        except subprocess.TimeoutExpired:
+            process.kill()
+            _, err = process.communicate()
+        server.log.extend(err.splitlines())
