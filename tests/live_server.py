@@ -35,7 +35,7 @@ def live_server(store: Path, env: dict[str, str] | None = None, args: tuple[str,
     port = free_port()
     process = subprocess.Popen(
         [sys.executable, "-m", "service.cli", "serve", "--store", str(store), "--port", str(port), *args],
-        env=dict(os.environ, WIDEN_ACCESS_LOG="false", **(env or {})),
+        env={**os.environ, "WIDEN_ACCESS_LOG": "false", **(env or {})},
         stdout=subprocess.PIPE,
         stderr=subprocess.PIPE,
         text=True,
