@@ -21,7 +21,6 @@ from service.lifecycle import ModelHolder
 from service.settings import Settings
 from training.bundle import Store
 
-
 REVIEW = "tollbridge-review-schema"
 
 
