@@ -28,7 +28,9 @@ demo: $(BIN)/.installed $(DEMO)/postings.jsonl
 	$(BIN)/widen expand 'lorry driver' --store $(STORE)
 	$(BIN)/widen evaluate --store $(STORE) --postings $(DEMO)/open_postings.jsonl --queries $(DEMO)/queries.jsonl --out build/eval
 	@echo "serving the demo store; Ctrl-C stops it"
-	$(BIN)/widen serve --store $(STORE) --port $(PORT) --demo-index $(DEMO)/open_postings.jsonl
+	@token=$$($(BIN)/python -c 'import secrets; print(secrets.token_urlsafe(12))'); \
+	  echo "review token for this demo run (the /debug page asks for it once): $$token"; \
+	  WIDEN_REVIEW_TOKEN=$$token exec $(BIN)/widen serve --store $(STORE) --port $(PORT) --demo-index $(DEMO)/open_postings.jsonl
 
 lint: $(BIN)/.installed
 	$(BIN)/ruff check service training tests demo_postings bench
