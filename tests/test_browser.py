@@ -127,7 +127,8 @@ _FOCUSABLES = """() => {
     .filter(el => !el.disabled && el.getClientRects().length > 0);
   const key = el => el.type === 'radio'
     ? 'radio:' + (el.form ? el.form.id : '') + ':' + el.name
-    : el.tagName + ':' + (el.id || el.name || '') + ':' + (el.getAttribute('href') || '') + '|' + (el.value || el.textContent.trim());
+    : el.tagName + ':' + (el.id || el.name || '') + ':' + (el.getAttribute('href') || '')
+      + '|' + (el.value || el.textContent.trim());
   return [...new Set(all.map(key))];
 }"""
 
@@ -136,7 +137,8 @@ _ACTIVE = """() => {
   if (!el || el === document.body) return '';
   return el.type === 'radio'
     ? 'radio:' + (el.form ? el.form.id : '') + ':' + el.name
-    : el.tagName + ':' + (el.id || el.name || '') + ':' + (el.getAttribute('href') || '') + '|' + (el.value || el.textContent.trim());
+    : el.tagName + ':' + (el.id || el.name || '') + ':' + (el.getAttribute('href') || '')
+      + '|' + (el.value || el.textContent.trim());
 }"""
 
 
