@@ -26,7 +26,7 @@ from pydantic import BaseModel, ConfigDict, Field
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from service.cache import ResultCache
-from service.decisions import DecisionError, DecisionMissing, DecisionStore, DecisionWithdrawn
+from service.decisions import Decision, DecisionError, DecisionMissing, DecisionStore, DecisionWithdrawn
 from service.expansion import ExpansionOptions, expand
 from service.lifecycle import ModelHolder
 from service.result import ExpansionResult
@@ -137,21 +137,8 @@ class DecisionRequest(BaseModel):
     note: str | None = Field(default=None, max_length=1000)
 
 
-class DecisionOut(BaseModel):
-    id: int
-    phrase: str
-    neighbour: str | None
-    action: str
-    weight: float | None
-    reviewer: str
-    note: str | None
-    created_at: str
-    withdrawn_at: str | None
-    withdrawn_by: str | None
-
-
 class DecisionList(BaseModel):
-    decisions: list[DecisionOut]
+    decisions: list[Decision]
 
 
 class DecisionExport(BaseModel):
@@ -551,15 +538,20 @@ def create_app(settings: Settings, holder: ModelHolder | None = None, watch: boo
         """Prometheus text exposition."""
         return Response(generate_latest(telemetry.registry), media_type=CONTENT_TYPE_LATEST)
 
+    def _bearer(request: Request, token: str, what: str) -> None:
+        """401 without a bearer token, 403 with a wrong one; compared in constant time."""
+        header = request.headers.get("authorization", "")
+        if not header.startswith("Bearer ") or not header[7:]:
+            article = "an" if what[0] in "aeiou" else "a"
+            raise ApiError(401, "unauthorized", f"{article} {what} token is required: Authorization: Bearer <token>")
+        if not hmac.compare_digest(header[7:].encode(), token.encode()):
+            raise ApiError(403, "forbidden", f"the {what} token is wrong")
+
     def _admin(request: Request) -> None:
         token = settings.admin_token.get_secret_value() if settings.admin_token else ""
         if not token:
             raise ApiError(404, "not_found", "Not Found")
-        header = request.headers.get("authorization", "")
-        if not header.startswith("Bearer ") or not header[7:]:
-            raise ApiError(401, "unauthorized", "an admin token is required: Authorization: Bearer <token>")
-        if not hmac.compare_digest(header[7:].encode(), token.encode()):
-            raise ApiError(403, "forbidden", "the admin token is wrong")
+        _bearer(request, token, "admin")
 
     @app.post("/v1/admin/reload", response_model=ReloadResponse, responses=ERRORS, tags=["operations"])
     def reload(request: Request) -> ReloadResponse:
@@ -577,14 +569,7 @@ def create_app(settings: Settings, holder: ModelHolder | None = None, watch: boo
     def _reviewer(request: Request) -> None:
         if not review_token:
             raise ApiError(403, "review_disabled", "this service has no review token (WIDEN_REVIEW_TOKEN): read-only")
-        header = request.headers.get("authorization", "")
-        if not header.startswith("Bearer ") or not header[7:]:
-            raise ApiError(401, "unauthorized", "a review token is required: Authorization: Bearer <token>")
-        if not hmac.compare_digest(header[7:].encode(), review_token.encode()):
-            raise ApiError(403, "forbidden", "the review token is wrong")
-
-    def _out(decision: Any) -> DecisionOut:
-        return DecisionOut(**decision.as_dict())
+        _bearer(request, review_token, "review")
 
     @app.get("/v1/decisions", response_model=DecisionList, responses=ERRORS, tags=["decisions"])
     def decisions_list(
@@ -602,10 +587,10 @@ def create_app(settings: Settings, holder: ModelHolder | None = None, watch: boo
             rows = [d for d in rows if d.phrase == phrase_form(phrase)]
         if action is not None:
             rows = [d for d in rows if d.action == action]
-        return DecisionList(decisions=[_out(d) for d in rows])
+        return DecisionList(decisions=rows)
 
-    @app.post("/v1/decisions", status_code=201, response_model=DecisionOut, responses=ERRORS, tags=["decisions"])
-    def decisions_add(request: Request, body: DecisionRequest) -> DecisionOut:
+    @app.post("/v1/decisions", status_code=201, response_model=Decision, responses=ERRORS, tags=["decisions"])
+    def decisions_add(request: Request, body: DecisionRequest) -> Decision:
         """Block or pin a neighbour for a phrase, or never expand it (review token). In force in
         this worker at once and in every worker within a second."""
         _reviewer(request)
@@ -614,7 +599,7 @@ def create_app(settings: Settings, holder: ModelHolder | None = None, watch: boo
         except DecisionError as exc:
             raise ApiError(400, "invalid_decision", str(exc)) from exc
         holder.check_decisions()
-        return _out(made)
+        return made
 
     @app.get("/v1/decisions/export", response_model=DecisionExport, tags=["decisions"])
     def decisions_export() -> DecisionExport:
@@ -636,13 +621,13 @@ def create_app(settings: Settings, holder: ModelHolder | None = None, watch: boo
         holder.check_decisions()
         return ImportResponse(added=added)
 
-    @app.delete("/v1/decisions/{decision_id}", response_model=DecisionOut, responses=ERRORS, tags=["decisions"])
+    @app.delete("/v1/decisions/{decision_id}", response_model=Decision, responses=ERRORS, tags=["decisions"])
     def decisions_withdraw(
         request: Request,
         decision_id: int,
         reviewer: str = Query(min_length=1, max_length=100, description="who undoes it"),
         note: str | None = Query(default=None, max_length=1000),
-    ) -> DecisionOut:
+    ) -> Decision:
         """Undo a decision: it stops applying and stays in the audit trail (review token)."""
         _reviewer(request)
         try:
@@ -654,7 +639,7 @@ def create_app(settings: Settings, holder: ModelHolder | None = None, watch: boo
         except DecisionError as exc:
             raise ApiError(400, "invalid_decision", str(exc)) from exc
         holder.check_decisions()
-        return _out(withdrawn)
+        return withdrawn
 
     # -- pages -------------------------------------------------------------------------
 

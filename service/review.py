@@ -236,12 +236,6 @@ class ReviewAccess:
     def enabled(self) -> bool:
         return bool(self._token)
 
-    def bearer(self, header: str) -> str | None:
-        """None when the Authorization header carries the token; else why not: missing or wrong."""
-        if not header.startswith("Bearer ") or not header[7:]:
-            return "missing"
-        return None if hmac.compare_digest(header[7:].encode(), self._token) else "wrong"
-
     def token_matches(self, candidate: str) -> bool:
         return self.enabled and hmac.compare_digest(candidate.encode(), self._token)
 
@@ -444,10 +438,18 @@ def add_review_routes(
         response.set_cookie(REVIEWER_COOKIE, remembered, httponly=True, samesite="strict", path="/")
         return response
 
+    async def checked_form(request: Request) -> tuple[dict[str, str], HTMLResponse | None]:
+        """The posted form, and the refusal page when the poster may not write."""
+        form = await _form(request)
+        return form, refused(request, form)
+
+    def again(request: Request, form: dict[str, str], problem: str) -> HTMLResponse:
+        """The phrase page the form came from, with what was wrong (400)."""
+        return phrase_page(request, form.get("q", ""), form.get("compare", ""), 400, problem)
+
     @app.post("/debug/decide", include_in_schema=False)
     async def decide(request: Request) -> Response:
-        form = await _form(request)
-        denied = refused(request, form)
+        form, denied = await checked_form(request)
         if denied is not None:
             return denied
         action = form.get("action", "")
@@ -457,17 +459,9 @@ def add_review_routes(
             try:
                 weight = float(form.get("weight", ""))
             except ValueError:
-                return phrase_page(
-                    request,
-                    form.get("q", ""),
-                    form.get("compare", ""),
-                    400,
-                    "Pin needs a weight, a number between 0 and 1.",
-                )
+                weight = math.nan
             if not math.isfinite(weight):
-                return phrase_page(
-                    request, form.get("q", ""), form.get("compare", ""), 400, "Pin needs a weight between 0 and 1."
-                )
+                return again(request, form, "Pin needs a weight, a number between 0 and 1.")
         if action == "never":
             neighbour = None
         try:
@@ -480,13 +474,12 @@ def add_review_routes(
                 note=form.get("note", "").strip() or None,
             )
         except DecisionError as exc:
-            return phrase_page(request, form.get("q", ""), form.get("compare", ""), 400, f"Not recorded: {exc}.")
+            return again(request, form, f"Not recorded: {exc}.")
         return after_write(request, form, decision)
 
     @app.post("/debug/undo", include_in_schema=False)
     async def undo(request: Request) -> Response:
-        form = await _form(request)
-        denied = refused(request, form)
+        form, denied = await checked_form(request)
         if denied is not None:
             return denied
         try:
@@ -494,5 +487,5 @@ def add_review_routes(
                 int(form.get("id", "0") or 0), form.get("reviewer", "")[:100], form.get("note", "").strip() or None
             )
         except (DecisionError, ValueError) as exc:
-            return phrase_page(request, form.get("q", ""), form.get("compare", ""), 400, f"Not undone: {exc}.")
+            return again(request, form, f"Not undone: {exc}.")
         return after_write(request, form, decision)
