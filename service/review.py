@@ -26,6 +26,7 @@ import numpy as np
 from fastapi import FastAPI, Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
 from jinja2 import Environment, FileSystemLoader, select_autoescape
+from starlette.concurrency import run_in_threadpool
 
 from service.decisions import Decision, DecisionError, DecisionSet, DecisionStore
 from service.evaluation import BASELINE_BOOST, baseline_text, merged_text
@@ -361,16 +362,20 @@ def add_review_routes(
                 values["preview_error"] = str(exc)
         return page(request, "review_phrase.html", status, **values)
 
+    # The page routes are plain functions: FastAPI runs them in its thread pool, so expanding,
+    # opening a bundle to compare or searching the preview index never holds up /v1/expand.
     @app.get("/debug", response_class=HTMLResponse, include_in_schema=False)
-    async def debug(request: Request, q: str = "", compare: str = "", done: str = "") -> HTMLResponse:
+    def debug(request: Request, q: str = "", compare: str = "", done: str = "") -> HTMLResponse:
         return phrase_page(request, q, compare, done=done if done.isdigit() else "")
+
+    css = (TEMPLATES / "review.css").read_bytes()
 
     @app.get("/debug/review.css", include_in_schema=False)
     async def stylesheet() -> Response:
-        return Response((TEMPLATES / "review.css").read_bytes(), media_type="text/css")
+        return Response(css, media_type="text/css", headers={"Cache-Control": "max-age=300"})
 
     @app.get("/debug/decisions", response_class=HTMLResponse, include_in_schema=False)
-    async def decisions_page(
+    def decisions_page(
         request: Request, phrase: str = "", action: str = "", reviewer: str = "", state: str = "active"
     ) -> HTMLResponse:
         rows = decision_store.entries(include_withdrawn=True)
@@ -443,9 +448,9 @@ def add_review_routes(
         form = await _form(request)
         return form, refused(request, form)
 
-    def again(request: Request, form: dict[str, str], problem: str) -> HTMLResponse:
-        """The phrase page the form came from, with what was wrong (400)."""
-        return phrase_page(request, form.get("q", ""), form.get("compare", ""), 400, problem)
+    async def again(request: Request, form: dict[str, str], problem: str) -> HTMLResponse:
+        """The phrase page the form came from, with what was wrong (400), rendered off the event loop."""
+        return await run_in_threadpool(phrase_page, request, form.get("q", ""), form.get("compare", ""), 400, problem)
 
     @app.post("/debug/decide", include_in_schema=False)
     async def decide(request: Request) -> Response:
@@ -461,21 +466,23 @@ def add_review_routes(
             except ValueError:
                 weight = math.nan
             if not math.isfinite(weight):
-                return again(request, form, "Pin needs a weight, a number between 0 and 1.")
+                return await again(request, form, "Pin needs a weight, a number between 0 and 1.")
         if action == "never":
             neighbour = None
         try:
-            decision = decision_store.add(
+            # SQLite may wait for another writer's lock: off the event loop, like the API's writes.
+            decision = await run_in_threadpool(
+                decision_store.add,
                 form.get("phrase", ""),
                 action,
                 form.get("reviewer", "")[:100],
-                neighbour=neighbour,
-                weight=weight,
-                note=form.get("note", "").strip() or None,
+                neighbour,
+                weight,
+                form.get("note", "").strip() or None,
             )
         except DecisionError as exc:
-            return again(request, form, f"Not recorded: {exc}.")
-        return after_write(request, form, decision)
+            return await again(request, form, f"Not recorded: {exc}.")
+        return await run_in_threadpool(after_write, request, form, decision)
 
     @app.post("/debug/undo", include_in_schema=False)
     async def undo(request: Request) -> Response:
@@ -483,9 +490,12 @@ def add_review_routes(
         if denied is not None:
             return denied
         try:
-            decision = decision_store.withdraw(
-                int(form.get("id", "0") or 0), form.get("reviewer", "")[:100], form.get("note", "").strip() or None
+            decision = await run_in_threadpool(
+                decision_store.withdraw,
+                int(form.get("id", "0") or 0),
+                form.get("reviewer", "")[:100],
+                form.get("note", "").strip() or None,
             )
         except (DecisionError, ValueError) as exc:
-            return again(request, form, f"Not undone: {exc}.")
-        return after_write(request, form, decision)
+            return await again(request, form, f"Not undone: {exc}.")
+        return await run_in_threadpool(after_write, request, form, decision)
