@@ -153,15 +153,16 @@ def neighbour_map(
     centred = matrix - matrix.mean(axis=0)
     _, _, vt = np.linalg.svd(centred, full_matrices=False)
     xy = centred @ vt[:2].T
-    pad = 40.0
-    lo, hi = xy.min(axis=0), xy.max(axis=0)
-    span = np.where(hi - lo > 1e-12, hi - lo, 1.0)
-    scaled = (xy - lo) / span
+    # One scale for both axes, so that distance on the map keeps its meaning; room for labels.
+    left, top, room_x, room_y = 20.0, 20.0, width - 140.0, height - 40.0
+    lo = xy.min(axis=0)
+    span = xy.max(axis=0) - lo
+    scale = min(room_x / span[0] if span[0] > 1e-12 else np.inf, room_y / span[1] if span[1] > 1e-12 else np.inf)
+    scale = float(scale) if np.isfinite(scale) else 1.0
+    placed = (xy - lo) * scale
     return [
-        MapPoint(
-            n, round(pad / 2 + float(sx) * (width - 3 * pad), 1), round(pad / 2 + float(sy) * (height - pad), 1), r
-        )
-        for n, r, (sx, sy) in zip(names, roles, scaled, strict=True)
+        MapPoint(n, round(left + float(px), 1), round(top + float(py), 1), r)
+        for n, r, (px, py) in zip(names, roles, placed, strict=True)
     ]
 
 

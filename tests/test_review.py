@@ -129,6 +129,9 @@ def test_map_is_the_first_two_principal_components(trained_store: Path) -> None:
     for axis in range(2):
         r = np.corrcoef(ours[:, axis], reference[:, axis])[0, 1]
         assert abs(r) > 0.9999, (axis, r)
+    # One scale for both axes, so distances on the map compare across directions.
+    scales = [np.std(ours[:, a]) / np.std(reference[:, a]) for a in range(2)]
+    assert scales[0] == pytest.approx(scales[1], rel=1e-3)
 
 
 def test_compare_marks_added_removed_and_moves() -> None:
