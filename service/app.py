@@ -17,6 +17,7 @@ from contextlib import asynccontextmanager
 from typing import Any, Literal
 
 from fastapi import FastAPI, Query, Request
+from fastapi import Path as PathParam
 from fastapi.exceptions import RequestValidationError
 from fastapi.middleware.cors import CORSMiddleware
 from fastapi.responses import JSONResponse, Response
@@ -26,7 +27,7 @@ from pydantic import BaseModel, ConfigDict, Field
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from service.cache import ResultCache
-from service.decisions import Decision, DecisionError, DecisionMissing, DecisionStore, DecisionWithdrawn
+from service.decisions import MAX_ID, Decision, DecisionError, DecisionMissing, DecisionStore, DecisionWithdrawn
 from service.expansion import ExpansionOptions, expand
 from service.lifecycle import ModelHolder
 from service.result import ExpansionResult
@@ -624,7 +625,7 @@ def create_app(settings: Settings, holder: ModelHolder | None = None, watch: boo
     @app.delete("/v1/decisions/{decision_id}", response_model=Decision, responses=ERRORS, tags=["decisions"])
     def decisions_withdraw(
         request: Request,
-        decision_id: int,
+        decision_id: int = PathParam(ge=1, le=MAX_ID),
         reviewer: str = Query(min_length=1, max_length=100, description="who undoes it"),
         note: str | None = Query(default=None, max_length=1000),
     ) -> Decision:

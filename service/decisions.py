@@ -31,6 +31,7 @@ __all__ = [
 
 Action = Literal["block", "pin", "never"]
 ACTIONS: tuple[str, ...] = ("block", "pin", "never")
+MAX_ID = 2**63 - 1
 
 _SCHEMA = """
 CREATE TABLE IF NOT EXISTS decisions (
@@ -238,6 +239,8 @@ class DecisionStore:
         """Undo a decision: it stops applying, and stays in the audit trail."""
         if not reviewer.strip():
             raise DecisionError("reviewer is required")
+        if not 0 < decision_id <= MAX_ID:  # SQLite's INTEGER is 64-bit signed
+            raise DecisionMissing(f"no decision {decision_id}")
         at = _now()
         with self._connect() as conn:
             conn.execute("BEGIN IMMEDIATE")

@@ -358,3 +358,14 @@ def test_hostile_strings_are_shown_as_text(client: TestClient, hostile: str) -> 
 def test_candidate_bar_is_clamped() -> None:
     assert Candidate("x", -0.3, False, None, None, "model", "below_min_similarity").bar == 0.0
     assert Candidate("x", 0.75, True, 0.2, "related", "model", None).bar == 0.75
+
+
+def test_undo_of_an_id_out_of_range_is_a_clean_refusal(client: TestClient) -> None:
+    # Found by schemathesis: an id past SQLite's 64-bit INTEGER made a 500.
+    auth = {"Authorization": f"Bearer {TOKEN}"}
+    got = client.delete(f"/v1/decisions/{2**64}", params={"reviewer": REVIEWER}, headers=auth)
+    assert got.status_code == 400 and got.json()["error"]["field"] == "decision_id"
+    assert client.delete("/v1/decisions/0", params={"reviewer": REVIEWER}, headers=auth).status_code == 400
+    csrf = _sign_in(client)
+    page = client.post("/debug/undo", data={"csrf": csrf, "id": str(2**70), "reviewer": REVIEWER, "q": "rn"})
+    assert page.status_code == 400 and "no decision" in page.text
