@@ -35,14 +35,27 @@ def _chromium() -> str | None:
     return shutil.which("chromium")
 
 
-@pytest.fixture(scope="module")
-def browser() -> Iterator[Any]:
-    path = _chromium()
+def _chromium_or_stop(path: str | None, in_ci: bool) -> str:
+    """The browser to drive; without one, skip locally (saying why) and fail under CI."""
     if path is None:
         message = "no Chromium found: apt-get install chromium (or set WIDEN_CHROMIUM) to run the browser tests"
-        if IN_CI:
+        if in_ci:
             pytest.fail(message)
         pytest.skip(message)
+    return path
+
+
+def test_without_chromium_ci_fails_and_a_laptop_skips() -> None:
+    with pytest.raises(pytest.fail.Exception, match="no Chromium found"):
+        _chromium_or_stop(None, in_ci=True)
+    with pytest.raises(pytest.skip.Exception, match="apt-get install chromium"):
+        _chromium_or_stop(None, in_ci=False)
+    assert _chromium_or_stop("/usr/bin/chromium", in_ci=True) == "/usr/bin/chromium"
+
+
+@pytest.fixture(scope="module")
+def browser() -> Iterator[Any]:
+    path = _chromium_or_stop(_chromium(), IN_CI)
     from playwright.sync_api import sync_playwright
 
     with sync_playwright() as p:
