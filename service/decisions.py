@@ -314,6 +314,13 @@ class DecisionStore:
         for number, item in enumerate(items, start=1):
             if not isinstance(item, dict):
                 raise DecisionError(f"decision {number} is not an object")
+            for key in ("phrase", "action", "neighbour", "note", "reviewer"):
+                if item.get(key) is not None and not isinstance(item[key], str):
+                    raise DecisionError(f"decision {number}: {key} must be a string")
+            if item.get("weight") is not None and (
+                isinstance(item["weight"], bool) or not isinstance(item["weight"], (int, float))
+            ):
+                raise DecisionError(f"decision {number}: weight must be a number")
             action, weight = str(item.get("action", "")), item.get("weight")
             try:
                 checked = self._checked(str(item.get("phrase", "")), action, reviewer, item.get("neighbour"), weight)

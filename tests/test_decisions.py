@@ -117,6 +117,12 @@ def test_export_and_import_round_trip(tmp_path: Path) -> None:
     with pytest.raises(DecisionError, match="decision 3"):
         target.import_(bad, "ben")
     assert len(target.entries()) == 2  # all or nothing
+    # Found by schemathesis: a field of the wrong JSON type made a 500 through the API.
+    for wrong in ({"neighbour": True}, {"phrase": 3.5}, {"weight": "0.4"}, {"note": ["x"]}):
+        item = {"phrase": "kp", "action": "pin", "neighbour": "pot washer", "weight": 0.3, **wrong}
+        with pytest.raises(DecisionError, match=r"decision 1: \w+ must be"):
+            target.import_({"format": "widen-decisions", "decisions": [item]}, "ben")
+    assert len(target.entries()) == 2
 
 
 def test_cli_decide_decisions_and_expand(store_copy: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
