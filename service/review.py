@@ -311,7 +311,6 @@ def add_review_routes(
             reviewer=unquote(request.cookies.get(REVIEWER_COOKIE, ""))[:100],
             model=serving.lexicon if serving else None,
             not_ready=holder.not_ready_reason,
-            reasons=REASONS,
             **values,
         )
         response = HTMLResponse(html, status_code=status)
