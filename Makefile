@@ -16,8 +16,8 @@ $(BIN)/.installed: pyproject.toml
 	$(BIN)/python -m pip install --quiet -e '.[test]'
 	touch $@
 
-$(DEMO)/postings.jsonl: demo_postings/generate.py | $(BIN)/.installed
-	$(BIN)/python demo_postings/generate.py --out $(DEMO) --postings $(POSTINGS) --seed 7
+$(DEMO)/postings.jsonl: demo_postings/generate.py demo_postings/tollbridge.py | $(BIN)/.installed
+	$(BIN)/python -m demo_postings.generate --out $(DEMO) --postings $(POSTINGS) --seed 7
 
 PORT ?= 8000
 
@@ -32,17 +32,20 @@ demo: $(BIN)/.installed $(DEMO)/postings.jsonl
 	  echo "review token for this demo run (the /debug page asks for it once): $$token"; \
 	  WIDEN_REVIEW_TOKEN=$$token exec $(BIN)/widen serve --store $(STORE) --port $(PORT) --demo-index $(DEMO)/open_postings.jsonl
 
+CODE := widen training service tests demo_postings bench
+
 lint: $(BIN)/.installed
-	$(BIN)/ruff check service training tests demo_postings bench
-	$(BIN)/ruff format --check service training tests demo_postings bench
-	$(BIN)/mypy service training
+	$(BIN)/ruff check $(CODE)
+	$(BIN)/ruff format --check $(CODE)
+	$(BIN)/mypy widen training service bench demo_postings tests
+	$(BIN)/lint-imports
 
 test: lint
 	$(BIN)/python -m pytest -q
 
 bench: $(BIN)/.installed $(DEMO)/postings.jsonl
 	@command -v wrk >/dev/null 2>&1 || { [ "$$(id -u)" = 0 ] && apt-get install -y -qq wrk >/dev/null 2>&1 || (apt-get update -qq && apt-get install -y -qq wrk); } || { echo "the server benchmark needs wrk (apt-get install wrk)"; exit 1; }
-	$(BIN)/python bench/run.py --demo $(DEMO) --out build/bench
+	$(BIN)/python -m bench.run --demo $(DEMO) --out build/bench
 
 clean:
 	rm -rf build

@@ -1,0 +1,1 @@
+"""The invented demo boards: their data tables and the generator that writes dumps from them."""

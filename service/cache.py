@@ -1,4 +1,4 @@
-"""A small LRU cache of expansion results, keyed by bundle version, decisions, query and options."""
+"""A small LRU cache of response bodies, keyed by bundle version, decisions version, query and options."""
 
 from __future__ import annotations
 
@@ -7,11 +7,7 @@ from collections import OrderedDict
 from collections.abc import Hashable
 from typing import Generic, TypeVar
 
-from service.decisions import DecisionSet
-from service.expansion import ExpansionOptions, Lexicon, expand
-from service.result import ExpansionResult
-
-__all__ = ["ResultCache", "cached_expand"]
+__all__ = ["ResultCache"]
 
 V = TypeVar("V")
 
@@ -46,15 +42,3 @@ class ResultCache(Generic[V]):
             self._items.move_to_end(key)
             while len(self._items) > self.size:
                 self._items.popitem(last=False)
-
-
-def cached_expand(
-    cache: ResultCache[ExpansionResult], lexicon: Lexicon, decisions: DecisionSet, query: str, options: ExpansionOptions
-) -> ExpansionResult:
-    """`expand` through the cache; a new bundle or any decision change gives new keys."""
-    key = (lexicon.version, decisions.version, query, options)
-    found = cache.get(key)
-    if found is None:
-        found = expand(lexicon, decisions, query, options)
-        cache.put(key, found)
-    return found

@@ -26,7 +26,9 @@ class Settings(BaseSettings):
     cors_origins: list[str] = []
     cache_size: int = Field(default=10_000, ge=0)
     max_query_chars: int = Field(default=256, ge=1)
-    max_query_tokens: int = Field(default=32, ge=1)
+    max_query_tokens: int | None = Field(
+        default=None, ge=1, le=256, description="overrides the bundle's expansion.max_tokens (default 32)"
+    )
     max_batch: int = Field(default=100, ge=1)
     max_body_bytes: int = Field(default=64 * 1024, ge=1024)
     access_log: bool = True

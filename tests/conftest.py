@@ -6,7 +6,7 @@ import io
 import json
 import os
 import shutil
-from collections.abc import Iterator
+from collections.abc import Iterator, Sequence
 from pathlib import Path
 
 import pytest
@@ -54,7 +54,7 @@ def store_copy(trained_store: Path, tmp_path: Path) -> Iterator[Path]:
     yield target
 
 
-def write_jsonl(path: Path, rows: list[object]) -> Path:
+def write_jsonl(path: Path, rows: Sequence[object]) -> Path:
     with path.open("w", encoding="utf-8") as fh:
         for row in rows:
             fh.write((row if isinstance(row, str) else json.dumps(row)) + "\n")

@@ -34,7 +34,7 @@ def live_server(store: Path, env: dict[str, str] | None = None, args: tuple[str,
     """Start `widen serve` on `store`, wait until /readyz answers 200, stop it with SIGINT after."""
     port = free_port()
     process = subprocess.Popen(
-        [sys.executable, "-m", "service.cli", "serve", "--store", str(store), "--port", str(port), *args],
+        [sys.executable, "-m", "widen.cli", "serve", "--store", str(store), "--port", str(port), *args],
         env={**os.environ, "WIDEN_ACCESS_LOG": "false", **(env or {})},
         stdout=subprocess.PIPE,
         stderr=subprocess.PIPE,
@@ -46,7 +46,8 @@ def live_server(store: Path, env: dict[str, str] | None = None, args: tuple[str,
         deadline = time.monotonic() + 60
         while time.monotonic() < deadline:
             if process.poll() is not None:
-                raise AssertionError(f"widen serve exited with {process.returncode}: {process.stderr.read()}")
+                _, err = process.communicate()
+                raise AssertionError(f"widen serve exited with {process.returncode}: {err}")
             try:
                 if httpx.get(f"{base}/readyz", timeout=1).status_code == 200:
                     break

@@ -14,10 +14,13 @@ from fastapi.testclient import TestClient
 from prometheus_client.parser import text_string_to_metric_families
 
 from service.app import create_app
-from service.decisions import DecisionStore
-from service.expansion import ExpansionOptions, Lexicon, expand
 from service.settings import Settings
-from training.bundle import Store, new_version, open_bundle
+from widen.clock import new_version
+from widen.expansion import expand
+from widen.lexicon import Lexicon
+from widen.options import ExpansionOptions
+from widen.sqlite_decisions import SqliteDecisionStore
+from widen.store import Store
 
 
 def _settings(store: Path, **extra: object) -> Settings:
@@ -57,9 +60,9 @@ def _copy_bundle(store: Path, corrupt: bool = False) -> str:
 
 
 def test_get_and_post_return_the_core_result(client: TestClient, store_copy: Path) -> None:
-    lexicon = Lexicon(open_bundle(Store(store_copy)))
+    lexicon = Lexicon(Store(store_copy).open_bundle())
     expected = expand(
-        lexicon, DecisionStore(Store(store_copy).decisions_path).snapshot(), "lorry driver", ExpansionOptions()
+        lexicon, SqliteDecisionStore(Store(store_copy).decisions_path).snapshot(), "lorry driver", ExpansionOptions()
     )
     got = client.get("/v1/expand", params={"q": "lorry driver"})
     assert got.status_code == 200 and got.json() == json.loads(expected.model_dump_json())
@@ -200,7 +203,7 @@ def test_empty_store_is_alive_not_ready_until_a_bundle_is_published(tmp_path: Pa
 def test_a_decision_takes_effect_within_a_second(client: TestClient, store_copy: Path) -> None:
     before = client.get("/v1/expand", params={"q": "kitchen porter"}).json()
     victim = before["segments"][0]["expansions"][0]["phrase"]
-    DecisionStore(Store(store_copy).decisions_path).add("kitchen porter", "block", "ana", neighbour=victim)
+    SqliteDecisionStore(Store(store_copy).decisions_path).add("kitchen porter", "block", "ana", neighbour=victim)
     started = time.monotonic()
     while time.monotonic() - started < 1.0:
         now = client.get("/v1/expand", params={"q": "kitchen porter"}).json()

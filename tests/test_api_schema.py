@@ -4,10 +4,12 @@ from __future__ import annotations
 
 import shutil
 from pathlib import Path
+from typing import Any
 
 import pytest
 import schemathesis
 from hypothesis import HealthCheck, given, settings
+from pydantic import SecretStr
 from schemathesis.checks import not_a_server_error
 from schemathesis.specs.openapi.checks import (
     content_type_conformance,
@@ -16,10 +18,10 @@ from schemathesis.specs.openapi.checks import (
 )
 
 from service.app import create_app
-from service.decisions import DecisionStore
-from service.lifecycle import ModelHolder
 from service.settings import Settings
-from training.bundle import Store
+from service.state import ServiceState
+from widen.sqlite_decisions import SqliteDecisionStore
+from widen.store import Store
 
 REVIEW = "tollbridge-review-schema"
 
@@ -29,11 +31,13 @@ def api_schema(trained_store: Path, tmp_path_factory: pytest.TempPathFactory) ->
     # A private copy: with the review token the generated requests really write decisions.
     store = tmp_path_factory.mktemp("schema") / "store"
     shutil.copytree(trained_store, store)
-    holder = ModelHolder(Store(store))
-    holder.check()
-    holder.check_decisions()
-    settings_ = Settings(store=store, access_log=False, admin_token="tollbridge-admin", review_token=REVIEW)
-    app = create_app(settings_, holder, watch=False)
+    settings_ = Settings(
+        store=store, access_log=False, admin_token=SecretStr("tollbridge-admin"), review_token=SecretStr(REVIEW)
+    )
+    state = ServiceState(settings_)
+    state.check()
+    state.check_decisions()
+    app = create_app(settings_, state, watch=False)
     return schemathesis.openapi.from_asgi("/openapi.json", app), store
 
 
@@ -42,7 +46,7 @@ def test_api_conforms_to_its_own_schema(api_schema: tuple[schemathesis.BaseSchem
     # Each operation of the document gets generated requests (schemathesis over hypothesis); the
     # checks named by the issue: no 5xx, and every response, errors too, matches the document.
     checks = [not_a_server_error, status_code_conformance, content_type_conformance, response_schema_conformance]
-    operations = [result.ok() for result in schema.get_all_operations()]
+    operations = [result.ok() for result in schema.get_all_operations()]  # type: ignore[union-attr]
     assert {op.path for op in operations} >= {
         "/v1/expand",
         "/v1/expand/batch",
@@ -57,9 +61,9 @@ def test_api_conforms_to_its_own_schema(api_schema: tuple[schemathesis.BaseSchem
 
         @given(case=operation.as_strategy())
         @settings(max_examples=40, deadline=None, suppress_health_check=list(HealthCheck), database=None)
-        def run(case: schemathesis.Case) -> None:
+        def run(case: schemathesis.Case[Any]) -> None:
             case.call_and_validate(headers={"Authorization": f"Bearer {REVIEW}"}, checks=checks)
 
         run()
     # The write paths ran for real: generated decisions were recorded (and some withdrawn).
-    assert DecisionStore(Store(store).decisions_path).audit()
+    assert SqliteDecisionStore(Store(store).decisions_path).audit()

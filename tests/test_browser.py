@@ -21,7 +21,7 @@ import pytest
 from tests.conftest import IN_CI
 from tests.live_server import live_server
 from tests.test_review import HOSTILE
-from training.bundle import Store
+from widen.store import Store
 
 TOKEN = "tollbridge-review-browser"
 ARTIFACTS = Path(os.environ.get("WIDEN_TEST_ARTIFACTS", "build/artifacts"))
@@ -85,6 +85,12 @@ def _sign_in(page: Any, base: str) -> None:
     page.wait_for_url(f"{base}/debug")
 
 
+def _dismiss(dialog: Any, seen: list[str]) -> None:
+    """A script dialog must never open; note it and close it so the test can fail on it."""
+    seen.append(dialog.message)
+    dialog.dismiss()
+
+
 def _neighbours(base: str, query: str) -> list[str]:
     result = httpx.get(f"{base}/v1/expand", params={"q": query}).json()
     return [e["phrase"] for s in result["segments"] for e in s["expansions"]]
@@ -95,7 +101,7 @@ def test_review_block_restart_and_compare(browser: Any, review_store: Path, demo
     context = browser.new_context(viewport={"width": 1280, "height": 900})
     page = context.new_page()
     dialogs: list[str] = []
-    page.on("dialog", lambda d: (dialogs.append(d.message), d.dismiss()))
+    page.on("dialog", lambda d: _dismiss(d, dialogs))
     with _served(review_store, demo_dir) as server:
         _sign_in(page, server.base)
         page.get_by_label("Phrase or query").fill("lorry driver")
@@ -119,7 +125,7 @@ def test_review_block_restart_and_compare(browser: Any, review_store: Path, demo
     with _served(review_store, demo_dir) as server:
         assert victim not in _neighbours(server.base, "lorry driver")
         page.goto(f"{server.base}/debug?" + urlencode({"q": "lorry driver"}))
-        assert page.get_by_role("button", name="Undo decision 1").is_visible()
+        assert page.get_by_role("button", name="Withdraw decision 1").is_visible()
         # Compare with the other bundle of the store.
         other = next(v for v in Store(review_store).versions() if v != Store(review_store).current_version())
         page.get_by_label("Side by side with bundle").select_option(other)
@@ -196,7 +202,7 @@ def test_hostile_strings_do_not_run_or_break_the_page(browser: Any, review_store
     context = browser.new_context()
     page = context.new_page()
     dialogs: list[str] = []
-    page.on("dialog", lambda d: (dialogs.append(d.message), d.dismiss()))
+    page.on("dialog", lambda d: _dismiss(d, dialogs))
     with _served(review_store, demo_dir) as server:
         _sign_in(page, server.base)
         auth = {"Authorization": f"Bearer {TOKEN}"}

@@ -8,11 +8,11 @@ from pathlib import Path
 
 import pytest
 
-from service.cli import main
 from tests.conftest import write_jsonl
-from training.bundle import Store
 from training.config import CorpusSection
 from training.corpus import REASONS, PostingCorpus
+from widen.cli import main
+from widen.store import Store
 
 GOOD = {"id": "tvj-1", "title": "Staff Nurse", "description": "<p>Hensby Community Hospital</p>", "location": "Hensby"}
 

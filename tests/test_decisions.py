@@ -9,24 +9,27 @@ from pathlib import Path
 
 import pytest
 
-from service.cli import main
-from service.decisions import DecisionError, DecisionStore
-from service.expansion import ExpansionOptions, Lexicon, expand
 from tests.conftest import demo_config, train_quietly
-from training.bundle import Store, open_bundle
+from widen.cli import main
+from widen.errors import DecisionError
+from widen.expansion import expand
+from widen.lexicon import Lexicon
+from widen.options import ExpansionOptions
+from widen.sqlite_decisions import SqliteDecisionStore
+from widen.store import Store
 
 OPTIONS = ExpansionOptions()
 
 
 def _phrases(store: Path, query: str) -> dict[str, float]:
-    lexicon = Lexicon(open_bundle(Store(store)))
-    snapshot = DecisionStore(Store(store).decisions_path).snapshot()
+    lexicon = Lexicon(Store(store).open_bundle())
+    snapshot = SqliteDecisionStore(Store(store).decisions_path).snapshot()
     result = expand(lexicon, snapshot, query, OPTIONS)
     return {e.phrase: e.weight for s in result.segments for e in s.expansions}
 
 
-def test_block_pin_never_and_undo_change_the_result(store_copy: Path) -> None:
-    decisions = DecisionStore(Store(store_copy).decisions_path)
+def test_block_pin_exempt_and_withdraw_change_the_result(store_copy: Path) -> None:
+    decisions = SqliteDecisionStore(Store(store_copy).decisions_path)
     before = _phrases(store_copy, "kitchen porter")
     victim = next(iter(before))
     blocked = decisions.add("kitchen porter", "block", "ana", neighbour=victim, note="checking")
@@ -37,10 +40,10 @@ def test_block_pin_never_and_undo_change_the_result(store_copy: Path) -> None:
     assert pinned["pot wash assistant"] == 0.45  # not in the vocabulary: a pin needs no model
     assert len(pinned) <= OPTIONS.max_per_segment
 
-    never = decisions.add("Kitchen Porter", "never", "ben", note="too broad for our board")
+    exempt = decisions.add("Kitchen Porter", "exempt", "ben", note="too broad for our board")
     assert _phrases(store_copy, "kitchen porter") == {}
 
-    decisions.withdraw(never.id, "ben")
+    decisions.withdraw(exempt.id, "ben")
     decisions.withdraw(pin.id, "ana")
     decisions.withdraw(blocked.id, "ana")
     assert _phrases(store_copy, "kitchen porter") == before
@@ -49,7 +52,7 @@ def test_block_pin_never_and_undo_change_the_result(store_copy: Path) -> None:
 
 
 def test_decisions_survive_a_retrain(store_copy: Path, demo_dir: Path) -> None:
-    decisions = DecisionStore(Store(store_copy).decisions_path)
+    decisions = SqliteDecisionStore(Store(store_copy).decisions_path)
     victim = next(iter(_phrases(store_copy, "lorry driver")))
     decisions.add("lorry driver", "block", "ana", neighbour=victim)
     old = Store(store_copy).current_version()
@@ -64,53 +67,53 @@ def test_decisions_survive_a_retrain(store_copy: Path, demo_dir: Path) -> None:
         (("staff nurse", "block", "ana"), "needs a neighbour"),
         (("staff nurse", "pin", "ana", "rn", 1.0), "between 0 and 1"),
         (("staff nurse", "pin", "ana", "rn", None), "between 0 and 1"),
-        (("staff nurse", "never", "ana", "rn"), "leave the neighbour out"),
+        (("staff nurse", "exempt", "ana", "rn"), "leave the neighbour out"),
         (("staff nurse", "block", "ana", "rn", 0.3), "takes no weight"),
         (("staff nurse", "block", " ", "rn"), "reviewer is required"),
-        (("...", "never", "ana"), "no words"),
+        (("...", "exempt", "ana"), "no words"),
         (("rn", "block", "ana", "RN"), "its own neighbour"),
         (("rn", "delete", "ana"), "action must be"),
     ],
 )
 def test_bad_decisions_are_refused(tmp_path: Path, args: tuple[object, ...], message: str) -> None:
     with pytest.raises(DecisionError, match=message):
-        DecisionStore(tmp_path / "d.sqlite").add(*args)  # type: ignore[arg-type]
+        SqliteDecisionStore(tmp_path / "d.sqlite").add(*args)  # type: ignore[arg-type]
 
 
 def test_database_is_in_wal_mode(tmp_path: Path) -> None:
     path = tmp_path / "d.sqlite"
-    DecisionStore(path).add("rn", "never", "ana")
+    SqliteDecisionStore(path).add("rn", "exempt", "ana")
     with sqlite3.connect(path) as conn:
         assert conn.execute("PRAGMA journal_mode").fetchone()[0] == "wal"
 
 
 def _writer(path: str, reviewer: str, count: int) -> None:
-    store = DecisionStore(Path(path))
+    store = SqliteDecisionStore(Path(path))
     for i in range(count):
-        store.add(f"phrase {reviewer} {i}", "never", reviewer)
+        store.add(f"phrase {reviewer} {i}", "exempt", reviewer)
 
 
 def test_two_processes_writing_at_once_lose_nothing(tmp_path: Path) -> None:
     path = tmp_path / "d.sqlite"
-    DecisionStore(path).add("rn", "never", "setup")
+    SqliteDecisionStore(path).add("rn", "exempt", "setup")
     procs = [multiprocessing.get_context("spawn").Process(target=_writer, args=(str(path), r, 60)) for r in ("a", "b")]
     for p in procs:
         p.start()
     for p in procs:
         p.join(60)
         assert p.exitcode == 0
-    assert len(DecisionStore(path).entries()) == 121
-    assert len(DecisionStore(path).audit()) == 121
+    assert len(SqliteDecisionStore(path).entries()) == 121
+    assert len(SqliteDecisionStore(path).audit()) == 121
 
 
 def test_export_and_import_round_trip(tmp_path: Path) -> None:
-    source = DecisionStore(tmp_path / "a.sqlite")
+    source = SqliteDecisionStore(tmp_path / "a.sqlite")
     source.add("staff nurse", "pin", "ana", neighbour="rn", weight=0.4, note="same job")
-    source.add("hensby", "never", "ana")
-    target = DecisionStore(tmp_path / "b.sqlite")
+    source.add("hensby", "exempt", "ana")
+    target = SqliteDecisionStore(tmp_path / "b.sqlite")
     assert target.import_(source.export(), "ben") == 2
     got = [(d.phrase, d.action, d.neighbour, d.weight) for d in target.entries()]
-    assert got == [("staff nurse", "pin", "rn", 0.4), ("hensby", "never", None, None)]
+    assert got == [("staff nurse", "pin", "rn", 0.4), ("hensby", "exempt", None, None)]
     assert "imported from decision 1 by ana" in (target.entries()[0].note or "")
     bad = source.export()
     bad["decisions"].append({"phrase": "kp", "action": "pin", "neighbour": "pot washer", "weight": 7})
@@ -143,6 +146,43 @@ def test_cli_decide_decisions_and_expand(store_copy: Path, tmp_path: Path, capsy
     assert "dropped:" in table and "broader_than_original" in table and "query text:" in table
     export = tmp_path / "decisions.json"
     assert main(["decisions", "--store", s, "--export", str(export)]) == 0
-    assert main(["decide", "undo", "1", "--store", s, "--reviewer", "ana"]) == 0
+    assert main(["decide", "withdraw", "1", "--store", s, "--reviewer", "ana"]) == 0
     assert main(["decisions", "--store", s, "--import", str(export), "--reviewer", "ben"]) == 0
     assert "imported 1 decision" in capsys.readouterr().out
+
+
+def test_a_database_of_the_first_schema_is_migrated_and_keeps_everything(tmp_path: Path) -> None:
+    # A decisions file as the first release wrote it: 'never' for the phrase-wide action, no schema version.
+    path = tmp_path / "decisions.sqlite"
+    with sqlite3.connect(path) as conn:
+        conn.executescript(
+            """
+            CREATE TABLE decisions (id INTEGER PRIMARY KEY AUTOINCREMENT, phrase TEXT NOT NULL, neighbour TEXT,
+                action TEXT NOT NULL CHECK (action IN ('block', 'pin', 'never')), weight REAL,
+                reviewer TEXT NOT NULL, note TEXT, created_at TEXT NOT NULL, withdrawn_at TEXT, withdrawn_by TEXT);
+            CREATE TABLE audit (id INTEGER PRIMARY KEY AUTOINCREMENT, decision_id INTEGER NOT NULL,
+                event TEXT NOT NULL, reviewer TEXT NOT NULL, note TEXT, at TEXT NOT NULL);
+            INSERT INTO decisions VALUES (1, 'hensby', NULL, 'never', NULL, 'ana', NULL, '2026-11-01T10:00:00Z',
+                NULL, NULL);
+            INSERT INTO decisions VALUES (2, 'rn', 'staff nurse', 'pin', 0.4, 'ana', 'same job',
+                '2026-11-01T10:01:00Z', '2026-11-02T09:00:00Z', 'ben');
+            INSERT INTO audit VALUES (1, 1, 'made', 'ana', NULL, '2026-11-01T10:00:00Z');
+            INSERT INTO audit VALUES (2, 2, 'made', 'ana', 'same job', '2026-11-01T10:01:00Z');
+            INSERT INTO audit VALUES (3, 2, 'withdrawn', 'ben', NULL, '2026-11-02T09:00:00Z');
+            """
+        )
+    store = SqliteDecisionStore(path)
+    got = [(d.id, d.phrase, d.action, d.withdrawn_by) for d in store.entries(include_withdrawn=True)]
+    assert got == [(1, "hensby", "exempt", None), (2, "rn", "pin", "ben")]
+    assert [a["event"] for a in store.audit()] == ["made", "made", "withdrawn"]
+    assert store.snapshot().get("hensby").exempt
+    assert store.add("kp", "exempt", "ana").id == 3  # the new constraint takes the new name
+    with sqlite3.connect(path) as conn:
+        assert conn.execute("PRAGMA user_version").fetchone()[0] == 2
+
+
+def test_an_export_of_the_first_format_imports_with_the_new_action_name(tmp_path: Path) -> None:
+    old = {"format": "widen-decisions", "version": 1, "decisions": [{"phrase": "hensby", "action": "never"}]}
+    store = SqliteDecisionStore(tmp_path / "d.sqlite")
+    assert store.import_(old, "ana") == 1
+    assert [d.action for d in store.entries()] == ["exempt"]

@@ -5,16 +5,20 @@ from __future__ import annotations
 import json
 import math
 from pathlib import Path
+from typing import Any
 
 import pytest
 import pytrec_eval
 
-from service.cli import main
-from service.decisions import DecisionSet
-from service.evaluation import evaluate, ndcg_at, read_queries, recall_at, reciprocal_rank, write_report
-from service.expansion import ExpansionOptions, Lexicon
-from service.search_index import SearchIndex
-from training.bundle import Store, open_bundle
+from widen.cli import main
+from widen.decisions import DecisionSet
+from widen.evaluation.index import SearchIndex
+from widen.evaluation.metrics import ndcg_at, recall_at, reciprocal_rank
+from widen.evaluation.report import write_report
+from widen.evaluation.runs import evaluate, read_queries
+from widen.lexicon import Lexicon
+from widen.options import ExpansionOptions
+from widen.store import Store
 
 
 def _read_run(path: Path) -> dict[str, dict[str, float]]:
@@ -34,17 +38,19 @@ def _read_qrels(path: Path) -> dict[str, dict[str, int]]:
 
 
 @pytest.fixture(scope="module")
-def evaluated(trained_store: Path, demo_dir: Path, tmp_path_factory: pytest.TempPathFactory) -> tuple[dict, Path]:
+def evaluated(
+    trained_store: Path, demo_dir: Path, tmp_path_factory: pytest.TempPathFactory
+) -> tuple[dict[str, Any], Path]:
     queries = read_queries(demo_dir / "queries.jsonl")[::3]  # a third of them keeps the test quick
     index = SearchIndex(demo_dir / "open_postings.jsonl", tmp_path_factory.mktemp("index"))
-    lexicon = Lexicon(open_bundle(Store(trained_store)))
+    lexicon = Lexicon(Store(trained_store).open_bundle())
     report = evaluate(lexicon, DecisionSet(), index, queries, ExpansionOptions())
     out = tmp_path_factory.mktemp("eval")
     write_report(report, out, lexicon.version)
     return report, out
 
 
-def test_metrics_equal_trec_eval_on_the_same_run_files(evaluated: tuple[dict, Path]) -> None:
+def test_metrics_equal_trec_eval_on_the_same_run_files(evaluated: tuple[dict[str, Any], Path]) -> None:
     report, out = evaluated
     qrels = _read_qrels(out / "qrels.txt")
     # Reference implementation: trec_eval, through pytrec-eval-terrier. Its names: recall_k,
@@ -80,7 +86,7 @@ def test_metric_functions_on_a_worked_example() -> None:
     assert math.isclose(ndcg_at(ranked, relevant, 10), dcg / ideal)
 
 
-def test_report_files_and_exact_first(evaluated: tuple[dict, Path]) -> None:
+def test_report_files_and_exact_first(evaluated: tuple[dict[str, Any], Path]) -> None:
     _, out = evaluated
     for name in (
         "report.json",
@@ -128,7 +134,7 @@ def read_queries_lines(path: Path, n: int) -> list[str]:
     return path.read_text(encoding="utf-8").splitlines(keepends=True)[:n]
 
 
-def test_boosted_baseline_keeps_exact_matches_first(evaluated: tuple[dict, Path]) -> None:
+def test_boosted_baseline_keeps_exact_matches_first(evaluated: tuple[dict[str, Any], Path]) -> None:
     report, _ = evaluated
     assert report["baseline_boost"] == 10.0
     # The targets of the search-impact issue, on the small demo's open postings: exact first,
@@ -142,7 +148,7 @@ def test_boosted_baseline_keeps_exact_matches_first(evaluated: tuple[dict, Path]
 
 
 def test_merged_text_is_the_baseline_boosted_or_the_query_text() -> None:
-    from service.evaluation import merged_text
+    from widen.query_text import merged_text
 
     assert (
         merged_text('"rn"^1', '("rn"^1 OR "staff nurse"^0.4)', 10) == '("rn"^1)^10 OR (("rn"^1 OR "staff nurse"^0.4))'

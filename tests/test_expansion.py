@@ -11,13 +11,15 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from service.decisions import DecisionSet
-from service.expansion import ExpansionOptions, Lexicon, expand, same_form, weight_for
-from service.result import ExpansionResult
-from service.scorecard import scorecard
-from training.bundle import Store, open_bundle
-from training.neighbours import normalise_rows
-from training.tokenize import PHRASE_JOINER
+from widen.decisions import DecisionSet
+from widen.evaluation.scorecard import scorecard
+from widen.expansion import expand, weight_for
+from widen.lexicon import Lexicon
+from widen.neighbours import normalise_rows
+from widen.options import ExpansionOptions
+from widen.result import ExpansionResult
+from widen.store import Store
+from widen.text import PHRASE_JOINER, same_form
 
 DEFAULTS = ExpansionOptions()
 NONE = DecisionSet()
@@ -25,7 +27,7 @@ NONE = DecisionSet()
 
 @pytest.fixture(scope="module")
 def lexicon(trained_store: Path) -> Lexicon:
-    return Lexicon(open_bundle(Store(trained_store)))
+    return Lexicon(Store(trained_store).open_bundle())
 
 
 def _expansions(result: ExpansionResult) -> list[str]:
@@ -138,7 +140,7 @@ def test_shift_patterns_and_stop_words_are_not_expanded(lexicon: Lexicon) -> Non
 
 
 def test_explain_gives_a_reason_for_every_dropped_neighbour(lexicon: Lexicon) -> None:
-    result = expand(lexicon, NONE, "lorry driver", ExpansionOptions(explain=True))
+    result = expand(lexicon, NONE, "lorry driver", DEFAULTS, explain=True)
     segment = result.segments[0]
     assert segment.dropped is not None
     reasons = {d.reason for d in segment.dropped}
@@ -165,7 +167,7 @@ def test_strict_mode_leaves_out_related_neighbours(lexicon: Lexicon) -> None:
 
 def test_composed_search_equals_brute_force_numpy(lexicon: Lexicon) -> None:
     # A quoted phrase the corpus never formed: its vector is the normalised mean of its parts.
-    result = expand(lexicon, NONE, '"kitchen porter hensby"', ExpansionOptions(explain=True))
+    result = expand(lexicon, NONE, '"kitchen porter hensby"', DEFAULTS, explain=True)
     segment = result.segments[0]
     assert segment.kind == "unknown"
     assert segment.expansions and all(e.source == "composed" for e in segment.expansions)
@@ -204,19 +206,28 @@ def test_operator_joins_segments(lexicon: Lexicon) -> None:
     assert ' OR "hensby"^1' in text and " AND " not in text
 
 
-def test_cache_returns_the_same_result_and_keys_on_decisions(lexicon: Lexicon) -> None:
-    from service.cache import ResultCache, cached_expand
-    from service.decisions import DecisionSet
+def test_response_cache_is_an_lru_keyed_on_decisions(lexicon: Lexicon) -> None:
+    from service.cache import ResultCache
 
-    cache = ResultCache(2)
-    first = cached_expand(cache, lexicon, NONE, "kitchen porter", DEFAULTS)
-    assert cached_expand(cache, lexicon, NONE, "kitchen porter", DEFAULTS) is first
-    assert (cache.hits, cache.misses) == (1, 1)
+    cache: ResultCache[ExpansionResult] = ResultCache(2)
+    first = expand(lexicon, NONE, "kitchen porter", DEFAULTS)
+    cache.put((lexicon.version, 0, "kitchen porter"), first)
+    assert cache.get((lexicon.version, 0, "kitchen porter")) is first
     # A change of decisions is a new key, never a stale hit.
-    cached_expand(cache, lexicon, DecisionSet(version=7), "kitchen porter", DEFAULTS)
-    assert cache.misses == 2
-    cached_expand(cache, lexicon, NONE, "rn", DEFAULTS)  # evicts the least recently used: the first
-    assert cache.get((lexicon.version, 7, "kitchen porter", DEFAULTS)) is not None
-    again = cached_expand(cache, lexicon, NONE, "kitchen porter", DEFAULTS)
-    assert again is not first and again == first
+    assert cache.get((lexicon.version, 7, "kitchen porter")) is None
+    assert (cache.hits, cache.misses) == (1, 1)
+    cache.put((lexicon.version, 0, "rn"), expand(lexicon, NONE, "rn", DEFAULTS))
+    cache.get((lexicon.version, 0, "kitchen porter"))  # now the most recently used
+    cache.put((lexicon.version, 0, "kp"), expand(lexicon, NONE, "kp", DEFAULTS))  # evicts the least: "rn"
+    assert cache.get((lexicon.version, 0, "rn")) is None
+    assert cache.get((lexicon.version, 0, "kitchen porter")) is first
     assert ResultCache(0).get("anything") is None
+
+
+def test_every_drop_reason_is_explained_in_words() -> None:
+    from typing import get_args
+
+    from widen.result import DROP_REASONS, DropReason
+
+    assert set(DROP_REASONS) == set(get_args(DropReason))
+    assert all(text.strip() for text in DROP_REASONS.values())

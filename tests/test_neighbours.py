@@ -6,12 +6,12 @@ from pathlib import Path
 
 import numpy as np
 
-from training.bundle import Store, open_bundle
-from training.neighbours import normalise_rows, top_k_for_vector, top_k_table
+from widen.neighbours import normalise_rows, top_k_for_vector, top_k_table
+from widen.store import Store
 
 
 def test_table_equals_gensim_most_similar(trained_store: Path) -> None:
-    bundle = open_bundle(Store(trained_store))
+    bundle = Store(trained_store).open_bundle()
     wv = bundle.vectors
     rng = np.random.default_rng(3)
     sample = rng.choice(len(wv), size=min(60, len(wv)), replace=False)

@@ -5,7 +5,8 @@ from __future__ import annotations
 import math
 
 from training.config import PhrasesSection
-from training.phrases import Phraser, learn_phrases
+from training.phrases import learn_phrases
+from widen.phrases import Phraser
 
 TINY = [
     ["lorry", "driver", "wanted"],

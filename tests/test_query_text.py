@@ -8,10 +8,12 @@ from pathlib import Path
 import pytest
 import tantivy
 
-from service.decisions import DecisionSet
-from service.expansion import ExpansionOptions, Lexicon, expand
-from training.bundle import Store, open_bundle
-from training.tokenize import tokens
+from widen.decisions import DecisionSet
+from widen.expansion import expand
+from widen.lexicon import Lexicon
+from widen.options import ExpansionOptions
+from widen.store import Store
+from widen.text import tokens
 
 HOSTILE = [
     '"',
@@ -45,7 +47,7 @@ HOSTILE = [
 
 @pytest.fixture(scope="module")
 def lexicon(trained_store: Path) -> Lexicon:
-    return Lexicon(open_bundle(Store(trained_store)))
+    return Lexicon(Store(trained_store).open_bundle())
 
 
 @pytest.fixture(scope="module")

@@ -15,9 +15,9 @@ from gensim.test.utils import datapath
 from gensim.utils import simple_preprocess
 
 from tests.conftest import write_jsonl
-from training.bundle import Store, open_bundle
 from training.config import load_config
 from training.pipeline import train
+from widen.store import Store
 
 PARAMS = {"vector_size": 100, "window": 5, "negative": 5, "min_count": 5, "epochs": 20, "sample": 1e-3}
 SEEDS = (1, 2, 3)
@@ -50,7 +50,7 @@ def test_wordsim_spearman_within_005_of_gensim_direct(tmp_path: Path) -> None:
         store = tmp_path / f"store-{seed}"
         outcome = train(corpus, store, load_config(None, overrides), out=io.StringIO())
         assert outcome.promoted
-        ours.append(_wordsim(open_bundle(Store(store)).vectors))
+        ours.append(_wordsim(Store(store).open_bundle().vectors))
         model = Word2Vec(sentences, sg=1, hs=0, seed=seed, workers=1, **PARAMS)
         direct.append(_wordsim(model.wv))
     assert np.mean(direct) > 0.05, "reference model learned nothing; the comparison would be empty"

@@ -14,12 +14,14 @@ import pytest
 from fastapi.testclient import TestClient
 
 from service.app import create_app
-from service.decisions import DecisionSet
-from service.expansion import ExpansionOptions, Lexicon
-from service.result import Clause, ExpansionResult, ModelInfo
-from service.review import Candidate, ReviewAccess, compare_view, neighbour_map, phrase_view
+from service.review.access import ReviewAccess
+from service.review.views import Candidate, compare_view, neighbour_map, phrase_view
 from service.settings import Settings
-from training.bundle import Store, open_bundle
+from widen.decisions import DecisionSet
+from widen.lexicon import Lexicon
+from widen.options import ExpansionOptions
+from widen.result import Clause, ExpansionResult, ModelInfo
+from widen.store import Store
 
 TOKEN = "tollbridge-review-7f3a"
 REVIEWER = "Dana, search team"
@@ -86,7 +88,7 @@ def test_page_shows_segments_candidates_reasons_and_query_text(client: TestClien
     got = client.get("/debug", params={"q": "lorry driver hensby"})
     assert got.status_code == 200
     html = got.text
-    lexicon = Lexicon(open_bundle(Store(trained_store)))
+    lexicon = Lexicon(Store(trained_store).open_bundle())
     result, views = phrase_view(lexicon, DecisionSet(), "lorry driver hensby", ExpansionOptions())
     assert [v.text for v in views] == ["lorry driver", "hensby"]
     assert lexicon.version in html and lexicon.created_at in html
@@ -111,7 +113,7 @@ def test_page_shows_segments_candidates_reasons_and_query_text(client: TestClien
 
 
 def test_map_is_the_first_two_principal_components(trained_store: Path) -> None:
-    lexicon = Lexicon(open_bundle(Store(trained_store)))
+    lexicon = Lexicon(Store(trained_store).open_bundle())
     _, views = phrase_view(lexicon, DecisionSet(), "staff nurse", ExpansionOptions())
     rows = views[0].candidates[:12]
     points = neighbour_map(lexicon, "staff nurse", rows)
@@ -183,8 +185,8 @@ def test_read_only_without_a_review_token(store_copy: Path) -> None:
         html = c.get("/debug", params={"q": "lorry driver"}).text
         assert "Read-only: this service has no review token" in html
         assert 'action="/debug/decide"' not in html and 'type="radio" name="neighbour"' not in html
-        assert c.post("/debug/decide", data={"phrase": "lorry driver", "action": "never"}).status_code == 403
-        api = c.post("/v1/decisions", json={"phrase": "rn", "action": "never", "reviewer": REVIEWER})
+        assert c.post("/debug/decide", data={"phrase": "lorry driver", "action": "exempt"}).status_code == 403
+        api = c.post("/v1/decisions", json={"phrase": "rn", "action": "exempt", "reviewer": REVIEWER})
         assert api.status_code == 403 and api.json()["error"]["code"] == "review_disabled"
         assert c.get("/v1/decisions").json() == {"decisions": []}
 
@@ -219,7 +221,7 @@ def test_page_token_cookie_and_csrf(client: TestClient) -> None:
     cookie = got.headers["set-cookie"]
     assert "HttpOnly" in cookie and "SameSite=strict" in cookie and TOKEN not in cookie
     csrf = _csrf(client.get("/debug", params={"q": "lorry driver"}).text)
-    form = {"phrase": "lorry driver", "q": "lorry driver", "action": "never", "reviewer": REVIEWER}
+    form = {"phrase": "lorry driver", "q": "lorry driver", "action": "exempt", "reviewer": REVIEWER}
     assert client.post("/debug/decide", data=form).status_code == 403  # no CSRF token
     assert client.post("/debug/decide", data={**form, "csrf": "0" * 64}).status_code == 403
     # Another browser without the cookie, even with a valid CSRF value, is refused.
@@ -246,7 +248,7 @@ def test_derived_values_change_with_the_token() -> None:
 # -- reviewer actions ----------------------------------------------------------------------------
 
 
-def test_block_pin_never_and_undo_from_the_page(client: TestClient) -> None:
+def test_block_pin_exempt_and_withdraw_from_the_page(client: TestClient) -> None:
     csrf = _sign_in(client)
     before = client.get("/v1/expand", params={"q": "lorry driver"}).json()
     victim = before["segments"][0]["expansions"][0]["phrase"]
@@ -265,17 +267,17 @@ def test_block_pin_never_and_undo_from_the_page(client: TestClient) -> None:
     assert {"phrase": "tipper driver", "weight": 0.3, "original": False, "segment": 0} in clauses
     bad = client.post("/debug/decide", data={**form, "action": "pin", "neighbour": victim, "weight": "1.5"})
     assert bad.status_code == 400 and "Not recorded" in bad.text
-    nameless = client.post("/debug/decide", data={**form, "action": "never", "reviewer": " "})
+    nameless = client.post("/debug/decide", data={**form, "action": "exempt", "reviewer": " "})
     assert nameless.status_code == 400 and "reviewer is required" in nameless.text
-    # Undo the block: the neighbour is back, and the audit keeps both events.
+    # Withdraw the block: the neighbour is back, and the audit keeps both events.
     decisions = client.get("/v1/decisions", params={"phrase": "lorry driver"}).json()["decisions"]
     block = next(d for d in decisions if d["action"] == "block")
-    undone = client.post("/debug/undo", data={**form, "id": str(block["id"]), "note": "was fine"})
-    assert undone.status_code == 200 and "undone" in undone.text
+    withdrawn = client.post("/debug/withdraw", data={**form, "id": str(block["id"]), "note": "was fine"})
+    assert withdrawn.status_code == 200 and "withdrawn" in withdrawn.text
     back = client.get("/v1/expand", params={"q": "lorry driver"}).json()
     assert victim in [e["phrase"] for e in back["segments"][0]["expansions"]]
     listing = client.get("/debug/decisions", params={"state": "all"}).text
-    assert listing.count("<td>#" + str(block["id"]) + "</td>") == 2  # made, then undone
+    assert listing.count("<td>#" + str(block["id"]) + "</td>") == 2  # made, then withdrawn
     assert "was fine" in listing and "check" in listing
     active = client.get("/debug/decisions", params={"action": "block"}).text
     assert "No decision matches." in active
@@ -283,7 +285,7 @@ def test_block_pin_never_and_undo_from_the_page(client: TestClient) -> None:
 
 def test_decisions_api_round_trip(client: TestClient, tmp_path: Path, store_copy: Path) -> None:
     auth = {"Authorization": f"Bearer {TOKEN}"}
-    bodies = [
+    bodies: list[dict[str, object]] = [
         {"phrase": "Staff Nurse", "neighbour": "ward sister", "action": "block", "reviewer": REVIEWER, "note": "coded"},
         {
             "phrase": "staff nurse",
@@ -292,7 +294,7 @@ def test_decisions_api_round_trip(client: TestClient, tmp_path: Path, store_copy
             "weight": 0.45,
             "reviewer": REVIEWER,
         },
-        {"phrase": "kp", "action": "never", "reviewer": REVIEWER},
+        {"phrase": "kp", "action": "exempt", "reviewer": REVIEWER},
     ]
     made = [client.post("/v1/decisions", json=b, headers=auth) for b in bodies]
     assert [m.status_code for m in made] == [201, 201, 201]
@@ -302,7 +304,7 @@ def test_decisions_api_round_trip(client: TestClient, tmp_path: Path, store_copy
     extra = client.post("/v1/decisions", json={**bodies[2], "colour": "red"}, headers=auth)
     assert extra.status_code == 400
     assert len(client.get("/v1/decisions", params={"phrase": "STAFF NURSE"}).json()["decisions"]) == 2
-    assert len(client.get("/v1/decisions", params={"action": "never"}).json()["decisions"]) == 1
+    assert len(client.get("/v1/decisions", params={"action": "exempt"}).json()["decisions"]) == 1
     first = made[0].json()["id"]
     gone = client.delete(f"/v1/decisions/{first}", params={"reviewer": REVIEWER, "note": "ok"}, headers=auth)
     assert gone.status_code == 200 and gone.json()["withdrawn_by"] == REVIEWER
@@ -360,12 +362,12 @@ def test_candidate_bar_is_clamped() -> None:
     assert Candidate("x", 0.75, True, 0.2, "related", "model", None).bar == 0.75
 
 
-def test_undo_of_an_id_out_of_range_is_a_clean_refusal(client: TestClient) -> None:
+def test_withdrawing_an_id_out_of_range_is_a_clean_refusal(client: TestClient) -> None:
     # Found by schemathesis: an id past SQLite's 64-bit INTEGER made a 500.
     auth = {"Authorization": f"Bearer {TOKEN}"}
     got = client.delete(f"/v1/decisions/{2**64}", params={"reviewer": REVIEWER}, headers=auth)
     assert got.status_code == 400 and got.json()["error"]["field"] == "decision_id"
     assert client.delete("/v1/decisions/0", params={"reviewer": REVIEWER}, headers=auth).status_code == 400
     csrf = _sign_in(client)
-    page = client.post("/debug/undo", data={"csrf": csrf, "id": str(2**70), "reviewer": REVIEWER, "q": "rn"})
+    page = client.post("/debug/withdraw", data={"csrf": csrf, "id": str(2**70), "reviewer": REVIEWER, "q": "rn"})
     assert page.status_code == 400 and "no decision" in page.text

@@ -13,11 +13,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from service.cli import main
 from tests.conftest import SMALL_POSTINGS, demo_config, train_quietly
-from training.bundle import Store, open_bundle
-from training.config import ConfigError, load_config
-from training.pipeline import EXIT_REFUSED
+from training.config import load_config
+from widen.cli import main
+from widen.errors import EXIT_REFUSED, ConfigError
+from widen.store import Store
 
 # A model that cannot have learned anything: one epoch at a learning rate near zero.
 BROKEN = {"embedding.epochs": 1, "embedding.alpha": 1e-6, "embedding.seed": 99}
@@ -126,7 +126,7 @@ def test_bundles_lists_status_and_score(trained_store: Path, capsys: pytest.Capt
 
 
 def _widen(*args: str) -> list[str]:
-    return [sys.executable, "-m", "service.cli", *args]
+    return [sys.executable, "-m", "widen.cli", *args]
 
 
 def test_sigkill_during_training_leaves_the_store_as_it_was(store_copy: Path, demo_dir: Path, tmp_path: Path) -> None:
@@ -190,7 +190,7 @@ def test_same_seed_one_worker_gives_identical_vectors_in_two_processes(demo_dir:
             env=dict(os.environ, PYTHONHASHSEED=(run == "a" and "1") or "2"),
         )
         assert done.returncode == 0, done.stderr
-        vectors.append(np.array(open_bundle(Store(store)).vectors.vectors))
+        vectors.append(np.array(Store(store).open_bundle().vectors.vectors))
     assert np.array_equal(vectors[0], vectors[1])
 
 

@@ -7,6 +7,7 @@ bundle's manifest so a bundle says exactly how it was made.
 
 from __future__ import annotations
 
+import logging
 import tomllib
 from pathlib import Path
 from typing import Any, Literal
@@ -14,27 +15,13 @@ from typing import Any, Literal
 import tomli_w
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
 
+from widen.errors import ConfigError
+from widen.options import ExpansionOptions
+from widen.phrases import CONNECTOR_WORDS, Scoring
+
 __all__ = ["TrainConfig", "ConfigError", "load_config"]
 
-# gensim's English connector words (gensim.models.phrases.ENGLISH_CONNECTOR_WORDS), written out
-# so the config shows them and a team can change them.
-DEFAULT_CONNECTORS = [
-    "a",
-    "an",
-    "and",
-    "at",
-    "by",
-    "for",
-    "from",
-    "in",
-    "of",
-    "on",
-    "or",
-    "the",
-    "to",
-    "with",
-    "without",
-]
+log = logging.getLogger("widen.train")
 
 
 class _Section(BaseModel):
@@ -61,8 +48,16 @@ class PhrasesSection(_Section):
     min_count: int = Field(default=10, ge=1)
     threshold: float = 0.5
     max_words: int = Field(default=3, ge=1, le=6)
-    scoring: Literal["npmi", "default"] = "npmi"
-    connector_words: list[str] = DEFAULT_CONNECTORS
+    scoring: Scoring = "npmi"
+    connector_words: list[str] = CONNECTOR_WORDS
+
+    @field_validator("scoring", mode="before")
+    @classmethod
+    def _old_name(cls, value: object) -> object:
+        if value == "default":
+            log.warning("phrases.scoring = 'default' is now called 'count_ratio' (what it computes); read as such")
+            return "count_ratio"
+        return value
 
     @model_validator(mode="after")
     def _threshold_fits_scorer(self) -> PhrasesSection:
@@ -113,13 +108,10 @@ class TrainConfig(_Section):
     neighbours: NeighboursSection = NeighboursSection()
     gate: GateSection = GateSection()
     store: StoreSection = StoreSection()
+    expansion: ExpansionOptions = ExpansionOptions()
 
     def to_toml(self) -> str:
         return tomli_w.dumps(self.model_dump())
-
-
-class ConfigError(ValueError):
-    """A config file that cannot be used; the message names the key."""
 
 
 def _explain(error: ValidationError) -> str:

@@ -13,15 +13,21 @@ import csv
 from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import IO, Any
 
 import numpy as np
 import numpy.typing as npt
 
 from training.config import GateSection
-from training.tokenize import PHRASE_JOINER, tokens
+from widen.bundle import Bundle
+from widen.decisions import DecisionSet
+from widen.errors import PairsError
+from widen.evaluation.index import SearchIndex
+from widen.evaluation.runs import evaluate, read_queries
+from widen.lexicon import Lexicon
+from widen.text import key_of_text
 
-__all__ = ["Pair", "PairsError", "read_pairs", "phrase_key", "score_pairs", "GateResult", "decide"]
+__all__ = ["Pair", "read_pairs", "score_pairs", "search_impact", "GateResult", "decide"]
 
 
 @dataclass(frozen=True)
@@ -29,10 +35,6 @@ class Pair:
     a: str
     b: str
     near: bool
-
-
-class PairsError(ValueError):
-    """The pairs file cannot be read; the message says where."""
 
 
 def read_pairs(path: Path) -> list[Pair]:
@@ -56,11 +58,6 @@ def read_pairs(path: Path) -> list[Pair]:
     return pairs
 
 
-def phrase_key(phrase: str) -> str:
-    """The vocabulary entry a written phrase would have: its tokens joined as the phrase model joins them."""
-    return PHRASE_JOINER.join(tokens(phrase))
-
-
 def _within(
     index: Mapping[str, int],
     nbr_idx: npt.NDArray[np.int32],
@@ -70,7 +67,7 @@ def _within(
     top_k: int,
     floor: float,
 ) -> bool:
-    ia, ib = index.get(phrase_key(a)), index.get(phrase_key(b))
+    ia, ib = index.get(key_of_text(a)), index.get(key_of_text(b))
     if ia is None or ib is None:
         return False
     row = nbr_idx[ia, :top_k]
@@ -91,7 +88,7 @@ def score_pairs(
     missing: list[str] = []
     for pair in pairs:
         for x, y in ((pair.a, pair.b), (pair.b, pair.a)):
-            if phrase_key(x) not in index and x not in missing:
+            if key_of_text(x) not in index and x not in missing:
                 missing.append(x)
             hit = _within(index, nbr_idx, nbr_sim, x, y, config.top_k, config.min_similarity)
             checks += 1
@@ -112,6 +109,29 @@ def score_pairs(
         "failed": failed[:50],
         "missing": missing[:50],
     }
+
+
+def search_impact(
+    candidate: Bundle,
+    serving: Bundle | None,
+    decisions: DecisionSet,
+    queries: Path,
+    postings: Path,
+    index_folder: Path,
+    out: IO[str],
+) -> tuple[dict[str, float], dict[str, float] | None]:
+    """Expanded recall@100, nDCG@10 and exact-first of the candidate and of the serving bundle, each
+    judged with its own expansion options, on labelled queries over a tantivy index of `postings`."""
+    labelled = read_queries(queries)
+    print(f"[gate] search impact on {len(labelled)} labelled queries", file=out, flush=True)
+    index = SearchIndex(postings, index_folder)
+
+    def score(bundle: Bundle) -> dict[str, float]:
+        lexicon = Lexicon(bundle)
+        report = evaluate(lexicon, decisions, index, labelled, lexicon.options)
+        return {k: report["expanded"][k] for k in ("recall@100", "ndcg@10", "exact_first")}
+
+    return score(candidate), (score(serving) if serving is not None else None)
 
 
 @dataclass(frozen=True)

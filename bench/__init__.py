@@ -1,0 +1,1 @@
+"""`make bench`: the benchmark scripts (`python -m bench.run`)."""

@@ -1,0 +1,61 @@
+"""What every benchmark shares: the machine it ran on, a timed `widen train`, medians."""
+
+from __future__ import annotations
+
+import os
+import platform
+import statistics
+import subprocess
+import sys
+import time
+from collections.abc import Callable
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parent.parent
+
+__all__ = ["ROOT", "machine", "widen_train", "median_us"]
+
+
+def machine() -> str:
+    cpu = platform.processor() or platform.machine()
+    try:
+        for line in Path("/proc/cpuinfo").read_text().splitlines():
+            if line.startswith("model name"):
+                cpu = line.split(":", 1)[1].strip()
+                break
+    except OSError:
+        pass
+    mem = os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES") / 2**30
+    return f"{os.cpu_count()} cores ({cpu}), {mem:.0f} GiB, Python {platform.python_version()}, {platform.system()}"
+
+
+def widen_train(corpus: Path, store: Path, config: Path) -> float:
+    started = time.perf_counter()
+    subprocess.run(
+        [
+            sys.executable,
+            "-m",
+            "widen.cli",
+            "train",
+            "--corpus",
+            str(corpus),
+            "--store",
+            str(store),
+            "--config",
+            str(config),
+        ],
+        check=True,
+        cwd=ROOT,
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.DEVNULL,
+    )
+    return time.perf_counter() - started
+
+
+def median_us(fn: Callable[[], object], runs: int) -> float:
+    times = []
+    for _ in range(runs):
+        started = time.perf_counter()
+        fn()
+        times.append(time.perf_counter() - started)
+    return round(statistics.median(times) * 1e6, 1)

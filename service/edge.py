@@ -1,0 +1,189 @@
+"""The edge of the service: plain ASGI middleware around the whole app (see `Edge`)."""
+
+from __future__ import annotations
+
+import json
+import logging
+import time
+import uuid
+from collections.abc import Awaitable, Callable, MutableMapping
+from typing import Any
+
+from fastapi.responses import Response
+
+from service.cache import ResultCache
+from service.errors import error_response
+from service.state import ServiceState
+from widen.clock import utc_stamp
+
+__all__ = ["Edge", "route_label", "ROUTES"]
+
+Scope = MutableMapping[str, Any]
+Message = MutableMapping[str, Any]
+Receive = Callable[[], Awaitable[Message]]
+Send = Callable[[Message], Awaitable[None]]
+ASGIApp = Callable[[Scope, Receive, Send], Awaitable[None]]
+
+access_log = logging.getLogger("widen.access")
+
+ROUTES = (
+    "/v1/expand",
+    "/v1/expand/batch",
+    "/v1/model",
+    "/healthz",
+    "/readyz",
+    "/metrics",
+    "/v1/admin/reload",
+    "/v1/decisions",
+    "/v1/decisions/export",
+    "/v1/decisions/import",
+)
+
+
+def route_label(path: str) -> str:
+    """The metrics label of a path: a known route, a family of routes, or other (bounded cardinality)."""
+    if path in ROUTES:
+        return path
+    if path.startswith("/v1/decisions/"):
+        return "/v1/decisions/{id}"
+    if path == "/debug" or path.startswith("/debug/"):
+        return "/debug"
+    if path == "/demo" or path.startswith("/demo/"):
+        return "/demo"
+    return "other"
+
+
+class Edge:
+    """Outermost middleware: request ids, the body limit, the access log, metrics, and the
+    response cache. Parameters: the app and the service state.
+
+    Plain ASGI, not a framework middleware, because it runs on every request and must stay cheap:
+    a GET of /v1/expand whose exact query string was answered before, for the same bundle and
+    decisions, is answered here from the cache without entering the framework; a POST body is
+    read once, checked against the limit, and replayed to the app (an ASGI body is taken once).
+    """
+
+    def __init__(self, app: ASGIApp, state: ServiceState) -> None:
+        self.app, self.state = app, state
+        self.settings, self.telemetry, self.cache = state.settings, state.telemetry, state.cache
+
+    def _get_key(self, scope: Scope) -> tuple[object, ...] | None:
+        if scope["method"] != "GET" or scope.get("path") != "/v1/expand" or self.cache.size <= 0:
+            return None
+        if any(name == b"origin" for name, _ in scope.get("headers", [])):
+            return None  # browser calls go through the CORS layer, which this shortcut would skip
+        serving = self.state.serving
+        if serving is None:
+            return None
+        return ("GET", serving.version, self.state.decisions.version, scope.get("query_string", b""))
+
+    async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
+        if scope["type"] != "http":
+            await self.app(scope, receive, send)
+            return
+        started = time.perf_counter()
+        request_id = _request_id(scope)
+        status = {"code": 500}
+
+        async def with_id(message: Message) -> None:
+            if message["type"] == "http.response.start":
+                status["code"] = message["status"]
+                message.setdefault("headers", [])
+                message["headers"] = [*message["headers"], (b"x-request-id", request_id.encode())]
+            await send(message)
+
+        send_with_id: Send = with_id
+        try:
+            key = self._get_key(scope)
+            if key is not None:
+                found = self.cache.get(key)
+                if found is not None:
+                    self.telemetry.cache_hits.inc()
+                    await Response(found, media_type="application/json")(scope, receive, send_with_id)
+                    return
+                scope["widen.edge_caches"] = True  # the handler need not cache this response again
+                send_with_id = _keep_body(send_with_id, self.cache, key)
+            if scope["method"] in ("POST", "PUT", "PATCH", "DELETE"):
+                body = await _read_limited(receive, self.settings.max_body_bytes)
+                if body is None:
+                    response = error_response(
+                        413, "body_too_large", f"the body is over {self.settings.max_body_bytes} bytes"
+                    )
+                    await response(scope, receive, send_with_id)
+                    return
+                receive = _replay(body)
+            await self.app(scope, receive, send_with_id)
+        finally:
+            path = scope.get("path", "")
+            route = route_label(path)
+            seconds = time.perf_counter() - started
+            self.telemetry.requests.labels(route, str(status["code"])).inc()
+            self.telemetry.latency.labels(route).observe(seconds)
+            if self.settings.access_log:
+                access_log.info(
+                    json.dumps(
+                        {
+                            "at": utc_stamp(),
+                            "request_id": request_id,
+                            "method": scope.get("method"),
+                            "path": path,
+                            "status": status["code"],
+                            "ms": round(seconds * 1000, 3),
+                        }
+                    )
+                )
+
+
+def _keep_body(send: Send, cache: ResultCache[bytes], key: tuple[object, ...]) -> Send:
+    """Pass a response on, and cache its body when it is a complete 200."""
+    state: dict[str, Any] = {"ok": False, "chunks": []}
+
+    async def send_and_keep(message: Message) -> None:
+        if message["type"] == "http.response.start":
+            state["ok"] = message["status"] == 200
+        elif message["type"] == "http.response.body" and state["ok"]:
+            state["chunks"].append(message.get("body", b""))
+            if not message.get("more_body"):
+                cache.put(key, b"".join(state["chunks"]))
+        await send(message)
+
+    return send_and_keep
+
+
+def _request_id(scope: Scope) -> str:
+    for name, value in scope.get("headers", []):
+        if name == b"x-request-id":
+            text = str(value.decode("latin-1"))
+            if 0 < len(text) <= 128 and text.isascii() and text.isprintable():
+                return text
+            break
+    return uuid.uuid4().hex
+
+
+async def _read_limited(receive: Receive, limit: int) -> bytes | None:
+    chunks, size = [], 0
+    while True:
+        message = await receive()
+        if message["type"] == "http.disconnect":
+            break
+        chunk = message.get("body", b"")
+        size += len(chunk)
+        if size > limit:
+            return None
+        chunks.append(chunk)
+        if not message.get("more_body"):
+            break
+    return b"".join(chunks)
+
+
+def _replay(body: bytes) -> Receive:
+    sent = False
+
+    async def receive() -> Message:
+        nonlocal sent
+        if not sent:
+            sent = True
+            return {"type": "http.request", "body": body, "more_body": False}
+        return {"type": "http.disconnect"}
+
+    return receive

@@ -1,0 +1,1 @@
+"""The review page at /debug (`routes`), what it shows (`views`) and who may change decisions (`access`)."""

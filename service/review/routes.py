@@ -1,0 +1,294 @@
+"""The review page at /debug: what widen does with a phrase and why, and the reviewers' decisions.
+
+Server-rendered with Jinja2 (autoescaping on), no script at all: every control is a plain
+form, and the Content-Security-Policy of these pages forbids scripts outright, so a hostile
+phrase from a seeker or the corpus is shown as text and cannot run. Writes need the review
+token (`WIDEN_REVIEW_TOKEN`, see `service.review.access`); without one the page is read-only
+and says so.
+
+The page routes are plain functions where they expand, open a bundle, search the preview index
+or wait on the decisions database: FastAPI runs them in its thread pool, so none of that ever
+holds up /v1/expand on the event loop.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+from typing import Any
+from urllib.parse import parse_qs, quote, unquote, urlencode
+
+from fastapi import APIRouter, Query, Request
+from fastapi.responses import HTMLResponse, RedirectResponse, Response
+from jinja2 import Environment, FileSystemLoader, select_autoescape
+from starlette.concurrency import run_in_threadpool
+
+from service.review.access import REVIEWER_COOKIE, SESSION_COOKIE, ReviewAccess
+from service.review.views import SegmentView, compare_view, phrase_view
+from service.routes import State
+from service.state import ServiceState
+from widen.decisions import Decision
+from widen.errors import BundleError, DecisionError
+from widen.expansion import expand
+from widen.query_text import baseline_text, merged_text
+
+__all__ = ["router"]
+
+TEMPLATES = Path(__file__).with_name("templates")
+MAX_FORM_FIELD = 2000
+CSP = (
+    "default-src 'none'; style-src 'self'; img-src 'self'; form-action 'self'; frame-ancestors 'none'; base-uri 'none'"
+)
+
+router = APIRouter(include_in_schema=False)
+
+
+def _environment() -> Environment:
+    env = Environment(
+        loader=FileSystemLoader(str(TEMPLATES)),
+        autoescape=select_autoescape(enabled_extensions=("html",), default_for_string=True),
+        trim_blocks=True,
+        lstrip_blocks=True,
+    )
+    env.filters["debug_link"] = lambda params: "/debug?" + urlencode({k: v for k, v in params.items() if v})
+    env.filters["num"] = lambda v, places=3: "" if v is None else f"{v:.{places}f}"
+    return env
+
+
+_ENV = _environment()
+_CSS = (TEMPLATES / "review.css").read_bytes()
+
+
+def _access(state: ServiceState) -> ReviewAccess:
+    token = state.settings.review_token
+    return ReviewAccess(token.get_secret_value() if token else "")
+
+
+async def _form(request: Request) -> dict[str, str]:
+    raw = (await request.body()).decode("utf-8", errors="replace")
+    parsed = parse_qs(raw, keep_blank_values=True, max_num_fields=50)
+    return {k: v[0][:MAX_FORM_FIELD] for k, v in parsed.items() if v}
+
+
+def _page(request: Request, state: ServiceState, template: str, status: int = 200, **values: Any) -> HTMLResponse:
+    access = _access(state)
+    signed_in = access.signed_in(request.cookies.get(SESSION_COOKIE))
+    serving = state.serving
+    html = _ENV.get_template(template).render(
+        writable=access.enabled,
+        signed_in=signed_in,
+        csrf=access.csrf() if signed_in else "",
+        reviewer=unquote(request.cookies.get(REVIEWER_COOKIE, ""))[:100],
+        model=serving.lexicon if serving else None,
+        not_ready=state.not_ready_reason,
+        **values,
+    )
+    response = HTMLResponse(html, status_code=status)
+    response.headers["Content-Security-Policy"] = CSP
+    response.headers["X-Content-Type-Options"] = "nosniff"
+    response.headers["Referrer-Policy"] = "same-origin"
+    response.headers["Cache-Control"] = "no-store"
+    return response
+
+
+def _phrase_page(
+    request: Request, state: ServiceState, q: str, compare: str, status: int = 200, error: str = "", done: str = ""
+) -> HTMLResponse:
+    serving = state.serving
+    values: dict[str, Any] = {"q": q, "compare": compare, "error": error, "bundles": state.store.listing()}
+    if done:
+        values["done_decision"] = next(
+            (d for d in state.decision_store.entries(include_withdrawn=True) if str(d.id) == done), None
+        )
+    if serving is None or not q.strip():
+        return _page(request, state, "review_phrase.html", status, result=None, views=[], **values)
+    q = q[: state.settings.max_query_chars]
+    options = serving.options
+    result, views = phrase_view(serving.lexicon, state.decisions, q, options)
+    active = state.decision_store.entries()
+    views = [
+        SegmentView(v.index, v.text, v.kind, v.candidates, v.map, [d for d in active if d.phrase == v.text])
+        for v in views
+    ]
+    values.update(result=result, views=views)
+    if compare and compare != serving.version:
+        try:
+            right = expand(state.lexicon_of(compare), state.decisions, q, options)
+            values.update(compared=right, changes=compare_view(result, right))
+        except (BundleError, OSError, ValueError) as exc:
+            values["compare_error"] = f"bundle {compare} cannot be opened: {exc}"
+    index = state.preview_index()
+    if index is not None:
+        plain = baseline_text(result, options.operator)
+        try:
+            plain_hits = index.search(plain, 10)
+            expanded_hits = index.search(merged_text(plain, result.query_text), 10)
+            matched = index.matching(plain)
+            values["preview"] = {
+                "plain": plain_hits,
+                "expanded": [(h, h.id not in matched) for h in expanded_hits],
+                "total_plain": len(matched),
+            }
+        except ValueError as exc:
+            values["preview_error"] = str(exc)
+    return _page(request, state, "review_phrase.html", status, **values)
+
+
+@router.get("/debug", response_class=HTMLResponse)
+def debug(request: Request, state: State, q: str = "", compare: str = "", done: str = "") -> HTMLResponse:
+    return _phrase_page(request, state, q, compare, done=done if done.isdigit() else "")
+
+
+@router.get("/debug/review.css")
+async def stylesheet() -> Response:
+    return Response(_CSS, media_type="text/css", headers={"Cache-Control": "max-age=300"})
+
+
+@router.get("/debug/decisions", response_class=HTMLResponse)
+def decisions_page(
+    request: Request,
+    state: State,
+    phrase: str = "",
+    action: str = "",
+    reviewer: str = "",
+    shown: str = Query(default="active", alias="state"),
+) -> HTMLResponse:
+    rows = state.decision_store.entries(include_withdrawn=True)
+    if phrase:
+        rows = [d for d in rows if phrase.lower() in d.phrase or (d.neighbour and phrase.lower() in d.neighbour)]
+    if action in ("block", "pin", "exempt"):
+        rows = [d for d in rows if d.action == action]
+    if reviewer:
+        rows = [d for d in rows if reviewer.lower() in d.reviewer.lower()]
+    if shown == "active":
+        rows = [d for d in rows if d.withdrawn_at is None]
+    elif shown == "withdrawn":
+        rows = [d for d in rows if d.withdrawn_at is not None]
+    ids = {d.id for d in rows}
+    trail = [a for a in state.decision_store.audit() if a["decision_id"] in ids]
+    filters = {"phrase": phrase, "action": action, "reviewer": reviewer, "state": shown}
+    return _page(request, state, "review_decisions.html", decisions=rows, trail=trail, filters=filters)
+
+
+@router.get("/debug/access", response_class=HTMLResponse)
+async def access_page(request: Request, state: State) -> HTMLResponse:
+    return _page(request, state, "review_access.html")
+
+
+@router.post("/debug/access")
+async def sign_in(request: Request, state: State) -> Response:
+    form = await _form(request)
+    access = _access(state)
+    if not access.enabled:
+        return _page(
+            request, state, "review_access.html", 403, error="This service has no review token; it is read-only."
+        )
+    if not access.token_matches(form.get("token", "")):
+        return _page(request, state, "review_access.html", 403, error="That is not the review token.")
+    response = RedirectResponse("/debug", status_code=303)
+    secure = request.url.scheme == "https"
+    response.set_cookie(SESSION_COOKIE, access.session_key(), httponly=True, samesite="strict", secure=secure, path="/")
+    return response
+
+
+@router.post("/debug/leave")
+async def sign_out(request: Request, state: State) -> Response:
+    form = await _form(request)
+    if not _access(state).csrf_matches(form.get("csrf", "")):
+        return _page(request, state, "review_access.html", 403, error="The form is stale; sign in again.")
+    response = RedirectResponse("/debug", status_code=303)
+    response.delete_cookie(SESSION_COOKIE, path="/", httponly=True, samesite="strict")
+    return response
+
+
+def _refused(request: Request, state: ServiceState, form: dict[str, str]) -> HTMLResponse | None:
+    """The refusal page when the poster may not write, else None."""
+    access = _access(state)
+    if not access.enabled:
+        return _page(
+            request, state, "review_access.html", 403, error="This service has no review token; it is read-only."
+        )
+    if not access.signed_in(request.cookies.get(SESSION_COOKIE)):
+        return _page(
+            request, state, "review_access.html", 401, error="Give the review token before changing decisions."
+        )
+    if not access.csrf_matches(form.get("csrf", "")):
+        return _page(
+            request, state, "review_access.html", 403, error="The form is stale or came from elsewhere; try again."
+        )
+    return None
+
+
+async def _writer_form(request: Request, state: ServiceState) -> tuple[dict[str, str], HTMLResponse | None]:
+    """The posted form, and the refusal page when the poster may not write."""
+    form = await _form(request)
+    return form, _refused(request, state, form)
+
+
+def _after_write(request: Request, state: ServiceState, form: dict[str, str], decision: Decision) -> Response:
+    state.check_decisions()  # this worker at once; the others within their decisions poll
+    target = "/debug?" + urlencode({"q": form.get("q", "") or decision.phrase, "done": str(decision.id)})
+    if form.get("compare"):
+        target += "&" + urlencode({"compare": form["compare"]})
+    response = RedirectResponse(target, status_code=303)
+    # Remembered to prefill the next form; quoted, since a cookie carries only ASCII.
+    remembered = quote(decision.reviewer[:100], safe="")
+    response.set_cookie(REVIEWER_COOKIE, remembered, httponly=True, samesite="strict", path="/")
+    return response
+
+
+async def _again(request: Request, state: ServiceState, form: dict[str, str], problem: str) -> HTMLResponse:
+    """The phrase page the form came from, with what was wrong (400), rendered off the event loop."""
+    return await run_in_threadpool(
+        _phrase_page, request, state, form.get("q", ""), form.get("compare", ""), 400, problem
+    )
+
+
+@router.post("/debug/decide")
+async def decide(request: Request, state: State) -> Response:
+    form, denied = await _writer_form(request, state)
+    if denied is not None:
+        return denied
+    action = form.get("action", "")
+    neighbour = form.get("other", "").strip() or form.get("neighbour", "").strip() or None
+    weight: float | None = None
+    if action == "pin":
+        try:
+            weight = float(form.get("weight", ""))
+        except ValueError:
+            weight = math.nan
+        if not math.isfinite(weight):
+            return await _again(request, state, form, "Pin needs a weight, a number between 0 and 1.")
+    if action == "exempt":
+        neighbour = None
+    try:
+        # The database may wait for another writer's lock: off the event loop, like the API's writes.
+        decision = await run_in_threadpool(
+            state.decision_store.add,
+            form.get("phrase", ""),
+            action,
+            form.get("reviewer", "")[:100],
+            neighbour,
+            weight,
+            form.get("note", "").strip() or None,
+        )
+    except DecisionError as exc:
+        return await _again(request, state, form, f"Not recorded: {exc}.")
+    return await run_in_threadpool(_after_write, request, state, form, decision)
+
+
+@router.post("/debug/withdraw")
+async def withdraw(request: Request, state: State) -> Response:
+    form, denied = await _writer_form(request, state)
+    if denied is not None:
+        return denied
+    try:
+        decision = await run_in_threadpool(
+            state.decision_store.withdraw,
+            int(form.get("id", "0") or 0),
+            form.get("reviewer", "")[:100],
+            form.get("note", "").strip() or None,
+        )
+    except (DecisionError, ValueError) as exc:
+        return await _again(request, state, form, f"Not withdrawn: {exc}.")
+    return await run_in_threadpool(_after_write, request, state, form, decision)

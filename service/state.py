@@ -1,0 +1,167 @@
+"""The service's one state object: the store, the decisions, the serving bundle and its options.
+
+Every router reaches it as `request.app.state.widen`. A request takes the current `Serving`
+once and uses it to the end, so a swap (one attribute assignment) never changes a bundle under
+a request in flight. A watcher thread checks the store's CURRENT pointer and the decisions; a
+new bundle is verified against its manifest before it serves, and a bad one is refused, logged
+and counted while the old one keeps serving.
+"""
+
+from __future__ import annotations
+
+import logging
+import threading
+from collections.abc import Callable
+from dataclasses import dataclass
+
+from service.cache import ResultCache
+from service.settings import Settings
+from service.telemetry import Telemetry
+from widen.decision_stores import open_decision_store
+from widen.decisions import DecisionSet
+from widen.errors import BundleError
+from widen.evaluation.index import SearchIndex
+from widen.lexicon import Lexicon
+from widen.options import ExpansionOptions
+from widen.store import Store
+
+__all__ = ["Serving", "ServiceState"]
+
+log = logging.getLogger("widen.serve")
+
+
+@dataclass(frozen=True)
+class Serving:
+    """One verified bundle and the options it is served with (its own, with the service's overrides)."""
+
+    lexicon: Lexicon
+    options: ExpansionOptions
+
+    @property
+    def version(self) -> str:
+        return self.lexicon.version
+
+
+class ServiceState:
+    """Everything the routers share. Parameters: the service settings; `telemetry`, where events are counted."""
+
+    def __init__(self, settings: Settings, telemetry: Telemetry | None = None) -> None:
+        self.settings = settings
+        self.store = Store(settings.store)
+        self.decision_store = open_decision_store(self.store)
+        self.telemetry = telemetry or Telemetry()
+        # The service caches response bytes: a hit costs a dict lookup, no model and no JSON work.
+        self.cache: ResultCache[bytes] = ResultCache(settings.cache_size)
+        self.serving: Serving | None = None
+        self.decisions = DecisionSet()
+        self.not_ready_reason = "no bundle loaded yet"
+        self.refused: set[str] = set()
+        self.demo_index: SearchIndex | None = None
+        if settings.demo_index is not None:
+            self.demo_index = SearchIndex(settings.demo_index, self.store.search_indexes)
+        self._decisions_stamp = -1
+        self._others: dict[str, Lexicon] = {}
+        self._built: dict[str, SearchIndex] = {}
+        self._lock = threading.Lock()
+        self._stop = threading.Event()
+        self._threads: list[threading.Thread] = []
+
+    def served_options(self, lexicon: Lexicon) -> ExpansionOptions:
+        """The bundle's own expansion options; the environment may override only max_tokens."""
+        if self.settings.max_query_tokens is None:
+            return lexicon.options
+        return lexicon.options.model_copy(update={"max_tokens": self.settings.max_query_tokens})
+
+    # -- the serving bundle ---------------------------------------------------------------
+
+    def check(self) -> str:
+        """Load CURRENT if it changed; returns what happened (unchanged, loaded, refused, none)."""
+        with self._lock:
+            version = self.store.current_version()
+            if version is None:
+                if self.serving is None:
+                    self.not_ready_reason = f"the store {self.store.root} has no current bundle"
+                return "none"
+            if self.serving is not None and version == self.serving.version:
+                return "unchanged"
+            if version in self.refused:
+                return "refused"
+            try:
+                lexicon = Lexicon(self.store.open_bundle(version, verify=True))
+            except (BundleError, OSError, ValueError) as exc:
+                self.refused.add(version)
+                log.error("refused bundle %s: %s", version, exc)
+                self.telemetry.event("refused", version)
+                if self.serving is None:
+                    self.not_ready_reason = f"bundle {version} failed verification: {exc}"
+                return "refused"
+            self.serving = Serving(lexicon, self.served_options(lexicon))
+            log.info("serving bundle %s", version)
+            self.telemetry.event("loaded", version)
+            return "loaded"
+
+    def lexicon_of(self, version: str) -> Lexicon:
+        """The serving lexicon, or another bundle of the store opened (and verified) for comparison."""
+        serving = self.serving
+        if serving is not None and serving.version == version:
+            return serving.lexicon
+        if version not in self._others:
+            if len(self._others) >= 3:
+                self._others.pop(next(iter(self._others)))
+            self._others[version] = Lexicon(self.store.open_bundle(version, verify=True))
+        return self._others[version]
+
+    # -- decisions ------------------------------------------------------------------------
+
+    def check_decisions(self) -> bool:
+        """Take a new snapshot if any process changed the decisions; True when it did."""
+        try:
+            stamp = self.decision_store.stamp()
+        except Exception as exc:  # a locked or damaged database must not stop serving
+            log.error("cannot read decisions: %s", exc)
+            return False
+        if stamp == self._decisions_stamp:
+            return False
+        self.decisions = self.decision_store.snapshot()
+        self._decisions_stamp = stamp
+        return True
+
+    # -- the postings preview ---------------------------------------------------------------
+
+    def preview_index(self) -> SearchIndex | None:
+        """The demo index, else the newest index `widen evaluate` built in the store."""
+        if self.demo_index is not None:
+            return self.demo_index
+        path = SearchIndex.newest_built(self.store.search_indexes)
+        if path is None:
+            return None
+        if str(path) not in self._built:
+            self._built.clear()
+            self._built[str(path)] = SearchIndex.open_built(path)
+        return self._built[str(path)]
+
+    # -- the watcher ------------------------------------------------------------------------
+
+    def start(self, watch: bool = True) -> None:
+        """Load the bundle and decisions now; with `watch`, keep checking in background threads."""
+        self.check()
+        self.check_decisions()
+        if not watch:
+            return
+        every = ((self.check, self.settings.poll_seconds), (self.check_decisions, self.settings.decisions_poll_seconds))
+        for target, seconds in every:
+            thread = threading.Thread(target=self._loop, args=(target, seconds), daemon=True, name="widen-watch")
+            thread.start()
+            self._threads.append(thread)
+
+    def _loop(self, target: Callable[[], object], every: float) -> None:
+        while not self._stop.wait(every):
+            try:
+                target()
+            except Exception:  # keep watching whatever one check raised
+                log.exception("watcher check failed")
+
+    def stop(self) -> None:
+        self._stop.set()
+        for thread in self._threads:
+            thread.join(timeout=5)

@@ -1,0 +1,92 @@
+"""The request and response bodies of the API (the result model itself is `widen.result`)."""
+
+from __future__ import annotations
+
+from typing import Any, Literal
+
+from pydantic import BaseModel, ConfigDict, Field
+
+from widen.decisions import Decision
+from widen.result import ExpansionResult
+
+__all__ = [
+    "RequestOptions",
+    "ExpandRequest",
+    "BatchRequest",
+    "BatchResponse",
+    "ModelResponse",
+    "Status",
+    "ReloadResponse",
+    "DecisionRequest",
+    "DecisionList",
+    "DecisionExport",
+    "ImportResponse",
+]
+
+
+class RequestOptions(BaseModel):
+    """What one request may ask of the expansion; anything left out takes the served options."""
+
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    max: int | None = Field(default=None, ge=1, le=50, description="at most this many expansions a segment")
+    min_similarity: float | None = Field(default=None, ge=0.0, le=1.0)
+    explain: bool = False
+    original_boost: float | None = Field(default=None, gt=0.0, le=100.0)
+    operator: Literal["AND", "OR"] | None = None
+
+
+class ExpandRequest(RequestOptions):
+    query: str = Field(min_length=1, max_length=256, description="the seeker's query, as typed")
+
+
+class BatchRequest(RequestOptions):
+    queries: list[str] = Field(min_length=1, max_length=100)
+
+
+class BatchResponse(BaseModel):
+    results: list[ExpansionResult]
+
+
+class ModelResponse(BaseModel):
+    version: str
+    created_at: str
+    vocabulary_size: int
+    phrase_count: int
+    corpus: dict[str, Any]
+    gate: dict[str, Any]
+
+
+class Status(BaseModel):
+    status: str
+    version: str | None = None
+
+
+class ReloadResponse(BaseModel):
+    result: str
+    version: str | None
+
+
+class DecisionRequest(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    phrase: str = Field(min_length=1, max_length=256, description="the phrase the decision is for, as typed")
+    neighbour: str | None = Field(default=None, max_length=256, description="for block and pin; null for exempt")
+    action: Literal["block", "pin", "exempt"]
+    weight: float | None = Field(default=None, gt=0.0, lt=1.0, description="for pin only: the clause weight")
+    reviewer: str = Field(min_length=1, max_length=100)
+    note: str | None = Field(default=None, max_length=1000)
+
+
+class DecisionList(BaseModel):
+    decisions: list[Decision]
+
+
+class DecisionExport(BaseModel):
+    format: Literal["widen-decisions"]
+    version: int
+    decisions: list[dict[str, Any]] = Field(max_length=100_000)
+
+
+class ImportResponse(BaseModel):
+    added: int

@@ -1,0 +1,145 @@
+"""The first pass over a dump: read, validate, de-duplicate and tokenise every posting once.
+
+What it reads goes to a scratch file of sentences (`T|D<TAB>tokens` lines, T for title), from
+which every later pass streams; memory follows the vocabulary, not the number of postings.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import multiprocessing
+from collections import deque
+from collections.abc import Iterator
+from dataclasses import dataclass
+from multiprocessing.pool import AsyncResult
+from pathlib import Path
+from typing import IO
+
+from training.corpus import Posting, PostingCorpus
+from training.progress import Progress
+from widen.phrases import Phraser
+from widen.text import key_of_text, sentences
+
+__all__ = ["FirstPass", "Scratch"]
+
+#: At most this many protected names (places, employers) are kept from a dump.
+MAX_PROTECTED = 200_000
+
+
+class Scratch:
+    """The corpus as phrased so far, in a scratch file of `T|D<TAB>tokens` lines (T: title).
+
+    `through(phraser)` streams it with one more phrase pass applied and writes that as the
+    next scratch file, so the next pass reads it without applying earlier passes again.
+    """
+
+    def __init__(self, folder: Path) -> None:
+        self.folder = folder
+        self.generation = 0
+        self.path = folder / "sentences.0.txt"
+
+    def through(self, phraser: Phraser) -> Iterator[list[str]]:
+        source = self.path
+        self.generation += 1
+        target = self.folder / f"sentences.{self.generation}.txt"
+        with source.open(encoding="utf-8") as src, target.open("w", encoding="utf-8") as dst:
+            for line in src:
+                entries = phraser(line[2:].split())
+                dst.write(f"{line[:2]}{' '.join(entries)}\n")
+                yield entries
+        source.unlink()
+        self.path = target
+
+
+@dataclass(frozen=True)
+class _Tokenised:
+    """One posting after tokenising: scratch lines ready to write, and what de-duplication needs."""
+
+    line: int
+    key: bytes
+    tokens: int
+    lines: str
+    protected: tuple[str, ...]
+
+
+def _tokenise_batch(batch: list[Posting], has_title: bool) -> list[_Tokenised]:
+    """Runs in a worker process; returns plain strings, which cross processes cheaply."""
+    out = []
+    for posting in batch:
+        rows: list[str] = []
+        flat: list[str] = []
+        for number, text in enumerate(posting.texts):
+            mark = "T" if number == 0 and has_title else "D"
+            for sent in sentences(text):
+                rows.append(f"{mark}\t{' '.join(sent)}\n")
+                flat.extend(sent)
+        key = hashlib.blake2b("\x1f".join(flat).encode("utf-8"), digest_size=12).digest()
+        protected = tuple(j for j in (key_of_text(v) for v in posting.protected) if j)
+        out.append(_Tokenised(posting.line, key, len(flat), "".join(rows), protected))
+    return out
+
+
+def _batched(corpus: PostingCorpus, size: int = 256) -> Iterator[list[Posting]]:
+    batch: list[Posting] = []
+    for posting in corpus:
+        batch.append(posting)
+        if len(batch) == size:
+            yield batch
+            batch = []
+    if batch:
+        yield batch
+
+
+class FirstPass:
+    """Read, validate, de-duplicate and tokenise every posting once.
+
+    Iterating yields the sentences (for the first phrase pass) and, as a side effect, writes
+    them to the scratch file. Tokenising runs in `workers` processes while the caller (gensim
+    Phrases) counts the batch before.
+    """
+
+    def __init__(self, corpus: PostingCorpus, scratch: Path, workers: int, out: IO[str]) -> None:
+        self.corpus, self.scratch, self.workers, self.out = corpus, scratch, workers, out
+        self.used = self.duplicates = self.tokens = 0
+        self.protected: set[str] = set()
+        self.has_title = bool(corpus.config.fields) and corpus.config.fields[0] == "title"
+
+    def _tokenised(self) -> Iterator[_Tokenised]:
+        if self.workers <= 1:
+            for batch in _batched(self.corpus):
+                yield from _tokenise_batch(batch, self.has_title)
+            return
+        # Submit a bounded number of batches ahead (Pool.imap would read the whole dump ahead
+        # of a slow consumer and hold it in memory).
+        ahead = 2 * self.workers
+        with multiprocessing.get_context("fork").Pool(self.workers) as pool:
+            pending: deque[AsyncResult[list[_Tokenised]]] = deque()
+            for batch in _batched(self.corpus):
+                pending.append(pool.apply_async(_tokenise_batch, (batch, self.has_title)))
+                if len(pending) >= ahead:
+                    yield from pending.popleft().get()
+            while pending:
+                yield from pending.popleft().get()
+
+    def __iter__(self) -> Iterator[list[str]]:
+        seen: set[bytes] = set()
+        with (
+            Progress("read and tokenise", unit="postings", stream=self.out) as bar,
+            self.scratch.open("w", encoding="utf-8") as fh,
+        ):
+            for done in self._tokenised():
+                bar.update()
+                if not done.tokens:
+                    self.corpus.stats.skip("empty_text", done.line)
+                    continue
+                if done.key in seen:
+                    self.duplicates += 1
+                    continue
+                seen.add(done.key)
+                self.used += 1
+                self.tokens += done.tokens
+                fh.write(done.lines)
+                for row in done.lines.splitlines():
+                    yield row[2:].split()
+                if len(self.protected) < MAX_PROTECTED:
+                    self.protected.update(done.protected)

@@ -1,0 +1,189 @@
+"""The one place that knows how a bundle is laid out on disk: its reader and its one writer.
+
+bundles/VERSION/       one published bundle, never changed after publication
+  manifest.json        what is in it and how it was made, with the sha256 of every other file
+  vectors.kv           input vectors in gensim's KeyedVectors format (+ vectors.kv.vectors.npy)
+  normed_vectors.npy   the input vectors at unit length, memory-mappable
+  output_vectors.npy   skip-gram output vectors (syn1neg), rows aligned with vectors.kv
+  neighbours_index.npy / neighbours_similarity.npy   exact top-k table, memory-mappable
+  entry_stats.npy      per entry: corpus count, count in titles
+  phrases.json         the phrase passes, to segment queries as the corpus was segmented
+  phrase_table.tsv     mined phrases with score and count, for review
+  protected.json       place and employer names that are never expanded nor offered
+
+The store around the bundles (CURRENT, the journal, decisions, search indexes) is `widen.store`.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+from collections.abc import Iterable
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import numpy.typing as npt
+from gensim.models import KeyedVectors
+
+from widen.errors import BundleError
+from widen.options import ExpansionOptions
+from widen.phrases import Phraser, PhraseRow
+from widen.text import display
+
+__all__ = ["FORMAT_VERSION", "Bundle", "BundleWriter", "read_manifest", "verify_folder", "sha256_file"]
+
+FORMAT_VERSION = 1
+
+MANIFEST = "manifest.json"
+VECTORS = "vectors.kv"
+NORMED_VECTORS = "normed_vectors.npy"
+OUTPUT_VECTORS = "output_vectors.npy"
+NEIGHBOURS_INDEX = "neighbours_index.npy"
+NEIGHBOURS_SIMILARITY = "neighbours_similarity.npy"
+ENTRY_STATS = "entry_stats.npy"
+PHRASES = "phrases.json"
+PHRASE_TABLE = "phrase_table.tsv"
+PROTECTED = "protected.json"
+REQUIRED = (VECTORS, NORMED_VECTORS, OUTPUT_VECTORS, NEIGHBOURS_INDEX, NEIGHBOURS_SIMILARITY, PHRASES, PROTECTED)
+
+
+def sha256_file(path: Path, chunk: int = 1 << 20) -> str:
+    digest = hashlib.sha256()
+    with path.open("rb") as fh:
+        while block := fh.read(chunk):
+            digest.update(block)
+    return digest.hexdigest()
+
+
+def read_manifest(folder: Path) -> dict[str, Any]:
+    path = folder / MANIFEST
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+    except FileNotFoundError as exc:
+        raise BundleError(f"no bundle {folder.name} in {folder.parent.parent}") from exc
+    except (json.JSONDecodeError, UnicodeDecodeError) as exc:
+        raise BundleError(f"bundle {folder.name}: manifest.json is not valid JSON") from exc
+    if not isinstance(data, dict):
+        raise BundleError(f"bundle {folder.name}: manifest.json is not an object")
+    return data
+
+
+def verify_folder(folder: Path) -> list[str]:
+    """Problems found checking every file of a bundle folder against its manifest; empty when sound."""
+    version = folder.name
+    try:
+        manifest = read_manifest(folder)
+    except BundleError as exc:
+        return [str(exc)]
+    if manifest.get("format_version") != FORMAT_VERSION:
+        return [f"bundle {version}: format_version {manifest.get('format_version')!r} is not {FORMAT_VERSION}"]
+    problems = []
+    files = manifest.get("files") or {}
+    problems += [f"bundle {version}: manifest lists no {name}" for name in REQUIRED if name not in files]
+    for name, expected in files.items():
+        path = folder / name
+        if not path.is_file():
+            problems.append(f"bundle {version}: {name} is missing")
+        elif sha256_file(path) != expected:
+            problems.append(f"bundle {version}: {name} does not match its sha256 in the manifest")
+    return problems
+
+
+class BundleWriter:
+    """Writes every file of a new bundle into `folder`, then the manifest, once, with their sha256.
+
+    Until `finish`, `draft(fields)` gives a manifest to open the unfinished bundle with (the gate
+    judges the candidate through the same reader the service uses).
+    """
+
+    def __init__(self, folder: Path) -> None:
+        self.folder = Path(folder)
+
+    def vectors(self, wv: KeyedVectors, output: npt.ArrayLike, normed: npt.ArrayLike) -> None:
+        """Input vectors (gensim's own format), output vectors and unit-length input vectors."""
+        wv.save(str(self.folder / VECTORS), separately=["vectors"])
+        np.save(self.folder / OUTPUT_VECTORS, np.asarray(output, dtype=np.float32))
+        np.save(self.folder / NORMED_VECTORS, np.asarray(normed, dtype=np.float32))
+
+    def entry_stats(self, counts: npt.ArrayLike) -> None:
+        """Per entry: corpus count, count in titles."""
+        np.save(self.folder / ENTRY_STATS, np.asarray(counts, dtype=np.int64).reshape(-1, 2))
+
+    def neighbours(self, index: npt.ArrayLike, similarity: npt.ArrayLike) -> None:
+        np.save(self.folder / NEIGHBOURS_INDEX, np.asarray(index, dtype=np.int32))
+        np.save(self.folder / NEIGHBOURS_SIMILARITY, np.asarray(similarity, dtype=np.float32))
+
+    def phrases(self, phraser: Phraser, table: Iterable[PhraseRow]) -> None:
+        (self.folder / PHRASES).write_text(json.dumps(phraser.to_json()) + "\n", encoding="utf-8")
+        with (self.folder / PHRASE_TABLE).open("w", encoding="utf-8") as fh:
+            fh.write("phrase\tscore\tcount\tpass\n")
+            for row in sorted(table, key=lambda r: (-r.count, r.phrase)):
+                fh.write(f"{display(row.phrase)}\t{row.score:.6f}\t{row.count}\t{row.pass_number}\n")
+
+    def protected(self, fields: list[str], entries: Iterable[str]) -> None:
+        data = {"fields": fields, "entries": sorted(entries)}
+        (self.folder / PROTECTED).write_text(json.dumps(data) + "\n", encoding="utf-8")
+
+    def draft(self, fields: dict[str, Any]) -> dict[str, Any]:
+        """The manifest as it would be, without the file list; nothing is written."""
+        return {"format_version": FORMAT_VERSION, **fields}
+
+    def finish(self, fields: dict[str, Any]) -> dict[str, Any]:
+        """Write manifest.json: the fields, the format version and the sha256 of every other file."""
+        files = {
+            p.relative_to(self.folder).as_posix(): sha256_file(p)
+            for p in sorted(self.folder.rglob("*"))
+            if p.is_file() and p.name != MANIFEST
+        }
+        manifest = {**self.draft(fields), "files": files}
+        text = json.dumps(manifest, indent=2, sort_keys=False) + "\n"
+        (self.folder / MANIFEST).write_text(text, encoding="utf-8")
+        return manifest
+
+
+class Bundle:
+    """A bundle opened for reading, its arrays memory-mapped (shared between workers).
+
+    Parameters: `folder`, the bundle's folder; `verify`, check every file's sha256 first;
+    `manifest`, the draft manifest of a bundle still being written (then nothing is verified).
+    """
+
+    def __init__(self, folder: Path, verify: bool = True, manifest: dict[str, Any] | None = None) -> None:
+        self.folder = Path(folder)
+        version = self.folder.name
+        if manifest is None and verify:
+            problems = verify_folder(self.folder)
+            if problems:
+                raise BundleError("; ".join(problems))
+        self.manifest = manifest if manifest is not None else read_manifest(self.folder)
+        self.version: str = self.manifest["version"]
+        self.created_at: str = self.manifest["created_at"]
+        try:
+            self.vectors = KeyedVectors.load(str(self.folder / VECTORS), mmap="r")
+            self.normed_vectors: npt.NDArray[np.float32] = np.load(self.folder / NORMED_VECTORS, mmap_mode="r")
+            self.output_vectors: npt.NDArray[np.float32] = np.load(self.folder / OUTPUT_VECTORS, mmap_mode="r")
+            self.neighbour_index: npt.NDArray[np.int32] = np.load(self.folder / NEIGHBOURS_INDEX, mmap_mode="r")
+            self.neighbour_similarity: npt.NDArray[np.float32] = np.load(
+                self.folder / NEIGHBOURS_SIMILARITY, mmap_mode="r"
+            )
+            self.entry_stats: npt.NDArray[np.int64] = np.load(self.folder / ENTRY_STATS, mmap_mode="r")
+            self.phraser = Phraser.from_json(json.loads((self.folder / PHRASES).read_text(encoding="utf-8")))
+            self.protected: frozenset[str] = frozenset(
+                json.loads((self.folder / PROTECTED).read_text(encoding="utf-8"))["entries"]
+            )
+        except (OSError, ValueError, KeyError) as exc:
+            raise BundleError(f"bundle {version} cannot be opened: {exc}") from exc
+        self.keys: list[str] = list(self.vectors.index_to_key)
+        self.index: dict[str, int] = dict(self.vectors.key_to_index)
+
+    @property
+    def options(self) -> ExpansionOptions:
+        """The expansion options the bundle was trained and gated with (defaults for older bundles)."""
+        saved = (self.manifest.get("config") or {}).get("expansion")
+        return ExpansionOptions.model_validate(saved) if saved else ExpansionOptions()
+
+    @property
+    def max_words(self) -> int:
+        """The longest phrase the bundle's phrase passes form."""
+        return int((self.manifest.get("config") or {}).get("phrases", {}).get("max_words", 3))

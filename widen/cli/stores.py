@@ -1,0 +1,81 @@
+"""`widen train`, `bundles`, `promote` and `rollback`: what is in a store and which bundle serves."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+
+from widen.cli.tables import table
+from widen.errors import EXIT_OK, BadInput, BundleError
+from widen.store import Store
+
+__all__ = ["train", "bundles", "promote", "rollback"]
+
+
+def train(args: argparse.Namespace) -> int:
+    from training.config import load_config
+    from training.pipeline import summary
+    from training.pipeline import train as train_bundle
+
+    overrides = {"gate.pairs": str(args.pairs.resolve())} if args.pairs else None
+    config = load_config(args.config, overrides)
+    if args.print_config:
+        sys.stdout.write(config.to_toml())
+        return EXIT_OK
+    if args.corpus is None or args.store is None:
+        raise BadInput("train needs --corpus and --store (or --print-config)")
+    outcome = train_bundle(args.corpus, args.store, config, force=args.force)
+    print(summary(outcome))
+    if not outcome.promoted:
+        print(f"\nthe gate refused {outcome.version}; it is kept as rejected and the serving bundle is unchanged.")
+        print(f"to serve it anyway: widen promote {outcome.version} --store {args.store} --force")
+    return outcome.exit_code
+
+
+def bundles(args: argparse.Namespace) -> int:
+    infos = Store(args.store).listing()
+    if args.json:
+        print(json.dumps([i.as_dict() for i in infos], indent=2))
+        return EXIT_OK
+    if not infos:
+        print(f"no bundles in {args.store}")
+        return EXIT_OK
+    header = ("version", "status", "created_at", "gate", "forced")
+    rows = [
+        (
+            i.version,
+            i.status,
+            i.created_at,
+            "n/a" if i.gate_score is None else f"{i.gate_score:.3f}",
+            "yes" if i.forced else "",
+        )
+        for i in infos
+    ]
+    print(table([header, *rows]))
+    return EXIT_OK
+
+
+def _promote_version(store: Store, version: str, force: bool, by: str) -> int:
+    problems = store.verify(version)
+    if problems:
+        raise BundleError("; ".join(problems))
+    gate = store.manifest(version).get("gate") or {}
+    if not gate.get("passed") and not force:
+        raise BadInput(f"{version} was refused by the gate ({'; '.join(gate.get('reasons', []))}); add --force")
+    with store.locked():
+        store.set_current(version, by=by, forced=not gate.get("passed"))
+    print(f"now serving {version}")
+    return EXIT_OK
+
+
+def promote(args: argparse.Namespace) -> int:
+    return _promote_version(Store(args.store), args.version, args.force, by="promote")
+
+
+def rollback(args: argparse.Namespace) -> int:
+    store = Store(args.store)
+    target = store.rollback_target()
+    if target is None:
+        raise BadInput(f"no earlier bundle to roll back to in {args.store}")
+    return _promote_version(store, target, force=True, by="rollback")

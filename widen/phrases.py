@@ -1,0 +1,88 @@
+"""Phrase passes: how the corpus was phrased, applied the same way to postings and to queries.
+
+The passes are learned by `training.phrases` with gensim Phrases and kept in a bundle as
+plain JSON (opening a bundle never unpickles code). Pass one joins word pairs (and pairs
+around connector words: "head of care"); each later pass can join a phrase to a neighbour.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Iterator
+from dataclasses import dataclass
+from typing import Any, Literal
+
+from gensim.models.phrases import FrozenPhrases, npmi_scorer, original_scorer
+
+__all__ = ["CONNECTOR_WORDS", "PhraseRow", "Phraser", "Scoring"]
+
+#: gensim's English connector words (gensim.models.phrases.ENGLISH_CONNECTOR_WORDS), written out
+#: so the config shows them and a team can change them.
+CONNECTOR_WORDS = ["a", "an", "and", "at", "by", "for", "from", "in", "of", "on", "or", "the", "to", "with", "without"]
+
+#: The phrase scorers, named for what they compute: `npmi` is normalised pointwise mutual
+#: information (Bouma 2009); `count_ratio` is (count(a b) - min_count) / (count(a) count(b))
+#: times the vocabulary size (Mikolov et al. 2013), gensim's "default" scorer.
+Scoring = Literal["npmi", "count_ratio"]
+_SCORERS = {"npmi": npmi_scorer, "count_ratio": original_scorer}
+
+
+@dataclass(frozen=True)
+class PhraseRow:
+    """One mined phrase, for review: its words, score, corpus count and the pass that formed it."""
+
+    phrase: str
+    score: float
+    count: int
+    pass_number: int
+
+
+def scorer(name: str) -> Any:
+    """gensim's scoring function for a scorer name of ours ("default" is the old name of count_ratio)."""
+    return _SCORERS["count_ratio" if name == "default" else name]
+
+
+class Phraser:
+    """The frozen phrase passes, applied in order; the same object segments corpus and queries."""
+
+    def __init__(self, passes: list[FrozenPhrases]) -> None:
+        self.passes = passes
+
+    def __call__(self, sentence: list[str]) -> list[str]:
+        for frozen in self.passes:
+            sentence = frozen[sentence]
+        return sentence
+
+    def stream(self, sentences: Iterable[list[str]]) -> Iterator[list[str]]:
+        for sentence in sentences:
+            yield self(sentence)
+
+    def to_json(self) -> dict[str, Any]:
+        """A plain-data form for the bundle (no pickle: a bundle never runs code when opened)."""
+        return {
+            "passes": [
+                {
+                    "threshold": float(p.threshold),
+                    "min_count": int(p.min_count),
+                    "scoring": "npmi" if p.scoring is npmi_scorer or p.scoring == "npmi" else "count_ratio",
+                    "delimiter": p.delimiter,
+                    "connector_words": sorted(p.connector_words),
+                    "phrasegrams": {k: float(v) for k, v in sorted(p.phrasegrams.items())},
+                }
+                for p in self.passes
+            ]
+        }
+
+    @classmethod
+    def from_json(cls, data: dict[str, Any]) -> Phraser:
+        passes = []
+        for item in data["passes"]:
+            # FrozenPhrases is built from a trained Phrases; here we restore its exported state.
+            frozen = FrozenPhrases.__new__(FrozenPhrases)
+            frozen.threshold = item["threshold"]
+            frozen.min_count = item["min_count"]
+            frozen.scoring = scorer(item["scoring"])
+            frozen.delimiter = item["delimiter"]
+            frozen.connector_words = frozenset(item["connector_words"])
+            frozen.phrasegrams = dict(item["phrasegrams"])
+            passes.append(frozen)
+        return cls(passes)

@@ -1,0 +1,111 @@
+"""The one result model of an expansion, shown unchanged by the CLI's JSON, the API and the page.
+
+Why a neighbour was dropped is a closed set of reasons; each has its explanation in words here,
+next to it, and every caller (CLI table, review page) shows those words.
+"""
+
+from __future__ import annotations
+
+from typing import Literal
+
+from pydantic import BaseModel, ConfigDict, Field
+
+__all__ = [
+    "ModelInfo",
+    "Expansion",
+    "Dropped",
+    "Segment",
+    "Clause",
+    "ExpansionResult",
+    "DropReason",
+    "DROP_REASONS",
+    "SegmentKind",
+]
+
+SegmentKind = Literal["phrase", "term", "unknown", "protected"]
+Relation = Literal["equivalent", "related"]
+Source = Literal["model", "composed", "pinned"]
+DropReason = Literal[
+    "protected",
+    "number_or_stop_word",
+    "below_min_similarity",
+    "blocked",
+    "pinned",
+    "same_as_original",
+    "broader_than_original",
+    "modifier_only",
+    "kind_mismatch",
+    "used_alongside",
+    "near_duplicate",
+    "related_in_strict_mode",
+    "max_per_segment",
+    "max_clauses",
+    "duplicate_clause",
+    "exempt",
+]
+
+#: What each drop reason means, in the words the CLI and the review page show.
+DROP_REASONS: dict[str, str] = {
+    "protected": "a place or employer name of the dump; never offered",
+    "number_or_stop_word": "only numbers or stop words",
+    "below_min_similarity": "similarity under the floor",
+    "blocked": "blocked by a reviewer",
+    "pinned": "already pinned by a reviewer",
+    "same_as_original": "the same words in another spelling",
+    "broader_than_original": "broader than what was asked (fewer of its words)",
+    "modifier_only": "differs only by a modifier (senior, nights...)",
+    "kind_mismatch": "rarely a job title, while the phrase is one",
+    "used_alongside": "used beside the phrase (its context), not instead of it",
+    "near_duplicate": "a spelling of a neighbour already kept",
+    "related_in_strict_mode": "related, and strict mode keeps only equivalents",
+    "max_per_segment": "over the limit of expansions for one segment",
+    "max_clauses": "over the limit of clauses for the query",
+    "duplicate_clause": "already a clause of this query",
+    "exempt": "a reviewer exempted the phrase from expansion",
+}
+
+
+class _Frozen(BaseModel):
+    model_config = ConfigDict(frozen=True, extra="forbid")
+
+
+class ModelInfo(_Frozen):
+    version: str
+    created_at: str
+
+
+class Expansion(_Frozen):
+    phrase: str
+    similarity: float = Field(description="cosine similarity of the input vectors, -1..1")
+    weight: float = Field(description="boost of this clause; always below the original's")
+    relation: Relation = Field(description="equivalent: likely the same job; related: close, a different job")
+    source: Source
+
+
+class Dropped(_Frozen):
+    phrase: str
+    similarity: float
+    reason: DropReason = Field(description="why it was dropped; DROP_REASONS in the README says it in words")
+    relation: Relation | None = Field(default=None, description="the relation hint, where the model gave one")
+
+
+class Segment(_Frozen):
+    text: str
+    kind: SegmentKind
+    expansions: list[Expansion] = []
+    dropped: list[Dropped] | None = Field(default=None, description="only when explain is asked")
+
+
+class Clause(_Frozen):
+    phrase: str
+    weight: float
+    original: bool
+    segment: int = Field(description="index of the segment this clause belongs to")
+
+
+class ExpansionResult(_Frozen):
+    query: str
+    model: ModelInfo
+    segments: list[Segment]
+    clauses: list[Clause]
+    query_text: str = Field(description="the clauses as a boolean query string (quoted phrases, ^boosts, OR, AND)")

@@ -1,0 +1,151 @@
+"""Text: the one tokeniser of widen, and every way a phrase is written.
+
+Postings at training time and queries at serving time go through the same steps, so a
+query token is spelled exactly as the corpus token it should match: HTML tags stripped
+(block tags end a sentence), entities decoded, Unicode NFKC, case-folded, split into
+sentences, then into tokens. Trade tokens stay whole (c++, c#, .net, a&e, 24/7, c+e, 1st,
+node.js, k-12, h.c.a.); lone punctuation is dropped.
+
+A phrase has three written forms, and this module is the only one that converts between them:
+- the *phrase*: its tokens joined by one space ("staff nurse"), what people read and decisions key on;
+- the *key*: its tokens joined by `PHRASE_JOINER` ("staff_nurse"), the vocabulary entry;
+- the *form*: the phrase with connectors, punctuation, spaces and a plural "s" ignored
+  ("h.c.a." and "hca" share one), to tell another spelling from another phrase.
+"""
+
+from __future__ import annotations
+
+import html
+import re
+import unicodedata
+
+__all__ = [
+    "PHRASE_JOINER",
+    "normalise",
+    "sentences",
+    "tokens",
+    "phrase_of",
+    "key_of",
+    "display",
+    "key_of_text",
+    "words_in",
+    "form",
+    "same_form",
+]
+
+#: How the phrase model joins the words of a phrase into one vocabulary entry.
+#: The tokeniser never emits it, so it cannot collide with a corpus token.
+PHRASE_JOINER = "_"
+
+_BLOCK_TAG = re.compile(
+    r"<\s*/?\s*(?:p|br|li|ul|ol|div|h[1-6]|tr|td|th|table|section|article|header|footer|hr)\b[^>]*>",
+    re.IGNORECASE,
+)
+_ANY_TAG = re.compile(r"<[^>]{0,2000}>")
+_SCRIPT = re.compile(r"<\s*(script|style)\b.*?<\s*/\s*\1\s*>", re.IGNORECASE | re.DOTALL)
+_QUOTES = str.maketrans({"\u2018": "'", "\u2019": "'", "\u201b": "'", "\u2032": "'", "`": "'"})
+
+# One alternation, tried left to right at each position:
+#   1. dotted abbreviations: h.c.a., e.g.
+#   2. leading-dot names: .net
+#   3. words with inner joiners: c+e, a&e, node.js, k-12, 24/7, 24,500, 12.40, we're
+#      and trailing + or # (c++, c#)
+#   4. a sentence end: . ! ? ; or a line break
+_TOKEN = re.compile(
+    r"""
+    (?P<abbr>(?<![\w.])(?:[^\W\d_]\.){2,}(?![\w]))
+  | (?P<dot>(?<![\w.])\.[^\W\d_]\w*(?![\w.]))
+  | (?P<word>[^\W_]+(?:(?:[.&+\-']|(?<=\d)[/,](?=\d))[^\W_]+)*[+#]*)
+  | (?P<end>[.!?;]+(?=\s|$)|\n)
+    """,
+    re.VERBOSE,
+)
+
+
+def normalise(text: str) -> str:
+    """Markup-free, entity-decoded, NFKC, case-folded text; block tags become line breaks."""
+    text = _SCRIPT.sub(" ", text)
+    text = _BLOCK_TAG.sub("\n", text)
+    text = _ANY_TAG.sub(" ", text)
+    # Entities may be double-encoded in reposted postings ("&amp;amp;").
+    for _ in range(2):
+        decoded = html.unescape(text)
+        if decoded == text:
+            break
+        text = decoded
+    text = unicodedata.normalize("NFKC", text).translate(_QUOTES).casefold()
+    return text
+
+
+def sentences(text: str) -> list[list[str]]:
+    """Split text into sentences of tokens; empty sentences are left out."""
+    out: list[list[str]] = []
+    current: list[str] = []
+    for line in normalise(text).split("\n"):
+        for chunk in line.split():
+            if chunk.isalnum():
+                # Fast path for the common plain word; same result as the full pattern.
+                current.append(chunk)
+                continue
+            for match in _TOKEN.finditer(chunk):
+                if match.lastgroup == "end":
+                    if current:
+                        out.append(current)
+                        current = []
+                else:
+                    current.append(match.group())
+        if current:
+            out.append(current)
+            current = []
+    return out
+
+
+def tokens(text: str) -> list[str]:
+    """All tokens of text in order, sentence breaks ignored (used for queries)."""
+    return [tok for sentence in sentences(text) for tok in sentence]
+
+
+def phrase_of(text: str) -> str:
+    """The phrase of any text: its tokens joined by one space ("Staff Nurse (RN)" -> "staff nurse rn")."""
+    return " ".join(tokens(text))
+
+
+def key_of(phrase: str) -> str:
+    """The vocabulary key of a phrase already in phrase form ("staff nurse" -> "staff_nurse")."""
+    return phrase.replace(" ", PHRASE_JOINER)
+
+
+def display(key: str) -> str:
+    """The phrase of a vocabulary key ("staff_nurse" -> "staff nurse")."""
+    return key.replace(PHRASE_JOINER, " ")
+
+
+def key_of_text(text: str) -> str:
+    """The vocabulary key any written text would have: its tokens joined as the phrase model joins them."""
+    return PHRASE_JOINER.join(tokens(text))
+
+
+def words_in(key: str) -> int:
+    """How many words a vocabulary key (or a phrase) holds."""
+    return key.count(PHRASE_JOINER) + key.count(" ") + 1
+
+
+_FORM_PUNCT = re.compile(r"[.\-'&+/#]")
+
+
+def form(phrase: str, connectors: frozenset[str]) -> str:
+    """The phrase with connectors, punctuation, spaces and a plural 's' ignored."""
+    out = []
+    for word in phrase.split(" "):
+        if word in connectors:
+            continue
+        word = _FORM_PUNCT.sub("", word)
+        if len(word) > 3 and word.endswith("s") and not word.endswith("ss"):
+            word = word[:-1]
+        out.append(word)
+    return "".join(out)
+
+
+def same_form(a: str, b: str, connectors: frozenset[str]) -> bool:
+    """The same words in another spelling ("h.c.a." and "hca", "care assistants" and "care assistant")."""
+    return form(a, connectors) == form(b, connectors)
