@@ -6,7 +6,7 @@ DEMO := build/demo
 STORE := build/store
 POSTINGS ?= 20000
 
-.PHONY: demo test lint bench clean
+.PHONY: demo test lint bench evaluate ablation clean
 
 # The venv is (re)built when pyproject.toml changes.
 $(BIN)/.installed: pyproject.toml
@@ -16,8 +16,8 @@ $(BIN)/.installed: pyproject.toml
 	$(BIN)/python -m pip install --quiet -e '.[test]'
 	touch $@
 
-$(DEMO)/postings.jsonl: demo_postings/generate.py demo_postings/tollbridge.py | $(BIN)/.installed
-	$(BIN)/python -m demo_postings.generate --out $(DEMO) --postings $(POSTINGS) --seed 7
+$(DEMO)/postings.jsonl: $(wildcard demo_postings/*.py) | $(BIN)/.installed
+	$(BIN)/python -m demo_postings.generate --board tollbridge --out $(DEMO) --postings $(POSTINGS) --seed 7
 
 PORT ?= 8000
 
@@ -26,7 +26,7 @@ demo: $(BIN)/.installed $(DEMO)/postings.jsonl
 	$(BIN)/widen train --corpus $(DEMO)/postings.jsonl --store $(STORE) --config demo_postings/widen.toml || [ $$? -eq 3 ]
 	$(BIN)/widen bundles --store $(STORE)
 	$(BIN)/widen expand 'lorry driver' --store $(STORE)
-	$(BIN)/widen evaluate --store $(STORE) --postings $(DEMO)/open_postings.jsonl --queries $(DEMO)/queries.jsonl --out build/eval
+	$(BIN)/widen evaluate --store $(STORE) --postings $(DEMO)/open_postings.jsonl --queries $(DEMO)/queries.jsonl --truth $(DEMO)/truth.json --out build/eval
 	@echo "serving the demo store; Ctrl-C stops it"
 	@token=$$($(BIN)/python -c 'import secrets; print(secrets.token_urlsafe(12))'); \
 	  echo "review token for this demo run (the /debug page asks for it once): $$token"; \
@@ -46,6 +46,14 @@ test: lint
 bench: $(BIN)/.installed $(DEMO)/postings.jsonl
 	@command -v wrk >/dev/null 2>&1 || { [ "$$(id -u)" = 0 ] && apt-get install -y -qq wrk >/dev/null 2>&1 || (apt-get update -qq && apt-get install -y -qq wrk); } || { echo "the server benchmark needs wrk (apt-get install wrk)"; exit 1; }
 	$(BIN)/python -m bench.run --demo $(DEMO) --out build/bench
+
+# Both demo boards at full size, every method, the index window curve and the truth scorecard (README, "Search impact").
+evaluate: $(BIN)/.installed
+	$(BIN)/python -m bench.boards --out build/boards
+
+# widen's vectors on the real text gensim ships, stage by stage against gensim direct (README, "Real text").
+ablation: $(BIN)/.installed
+	$(BIN)/python -m bench.ablation --out build/ablation
 
 clean:
 	rm -rf build

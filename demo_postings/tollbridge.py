@@ -8,7 +8,7 @@ title variant. `generate.py` writes postings from these tables.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from demo_postings.families import Family
 
 TOWNS = [
     "Tollbridge",
@@ -26,20 +26,20 @@ EMPLOYERS = {
         "Hensby Community Hospital",
         "Tollbridge General Infirmary",
         "Marrow Quay Care Homes",
-        "Willowbank Home Care",
+        "Tessledown Home Care",
         "Greywater Nursing Agency",
         "Little Aldon Hospice",
     ],
     "logistics": [
-        "Quayside Freight",
+        "Corrimore Freight",
         "Eastfold Distribution Park",
         "Copperwick Haulage",
-        "Valley Parcel Runners",
+        "Sparrowgate Parcel Runners",
         "Saltmarsh Cold Store",
     ],
     "hospitality": [
-        "The Copper Kettle",
-        "The Ferryman Inn",
+        "The Tinderwick Kettle",
+        "The Oarsmere Inn",
         "Marrow Quay Brasserie",
         "Tollbridge Riverside Hotel",
         "Hensby Tea Rooms",
@@ -54,12 +54,12 @@ EMPLOYERS = {
     "schools": [
         "Little Aldon Primary School",
         "Hensby Academy",
-        "Busy Otters Nursery",
+        "Pipwick Nursery",
         "Copperwick Infant School",
         "Tollbridge Day Nursery",
     ],
     "office": [
-        "Valley Ledger Accountants",
+        "Ledgerwell Accountants",
         "Marrow Quay Council Offices",
         "Eastfold Data Centre",
         "Tollbridge Contact Centre",
@@ -67,7 +67,7 @@ EMPLOYERS = {
     ],
 }
 
-AGENCIES = ["Valley Staffing Partners", "Riverside Recruitment", "Tollbridge Temps"]
+AGENCIES = ["Vellacott Staffing", "Hollowmere Recruitment", "Tollbridge Temps"]
 
 # Each employer's house style: which of a family's title variants it leans to (the synonym gap:
 # most postings of one employer use one variant). Fixed numbers, so renaming an employer changes no posting.
@@ -75,16 +75,16 @@ HOUSE_STYLE = {
     "Hensby Community Hospital": 22,
     "Tollbridge General Infirmary": 43,
     "Marrow Quay Care Homes": 51,
-    "Willowbank Home Care": 26,
+    "Tessledown Home Care": 26,
     "Greywater Nursing Agency": 19,
     "Little Aldon Hospice": 35,
-    "Quayside Freight": 22,
+    "Corrimore Freight": 22,
     "Eastfold Distribution Park": 40,
     "Copperwick Haulage": 34,
-    "Valley Parcel Runners": 53,
+    "Sparrowgate Parcel Runners": 53,
     "Saltmarsh Cold Store": 58,
-    "The Copper Kettle": 27,
-    "The Ferryman Inn": 42,
+    "The Tinderwick Kettle": 27,
+    "The Oarsmere Inn": 42,
     "Marrow Quay Brasserie": 0,
     "Tollbridge Riverside Hotel": 25,
     "Hensby Tea Rooms": 51,
@@ -95,30 +95,18 @@ HOUSE_STYLE = {
     "Tollbridge Shopfit Ltd": 21,
     "Little Aldon Primary School": 48,
     "Hensby Academy": 21,
-    "Busy Otters Nursery": 24,
+    "Pipwick Nursery": 24,
     "Copperwick Infant School": 55,
     "Tollbridge Day Nursery": 42,
-    "Valley Ledger Accountants": 35,
+    "Ledgerwell Accountants": 35,
     "Marrow Quay Council Offices": 44,
     "Eastfold Data Centre": 9,
     "Tollbridge Contact Centre": 21,
     "Copperwick Manufacturing": 43,
-    "Valley Staffing Partners": 10,
-    "Riverside Recruitment": 43,
+    "Vellacott Staffing": 10,
+    "Hollowmere Recruitment": 43,
     "Tollbridge Temps": 25,
 }
-
-
-@dataclass(frozen=True)
-class Family:
-    name: str
-    sector: str
-    equivalent: list[str]
-    related: list[str]
-    duties: list[str]
-    needs: list[str]
-    # Titles of other families this role works beside; they appear in the text (co-listing).
-    colleagues: list[str] = field(default_factory=list)
 
 
 # Duty and requirement sentences use {t} for the posting's own title variant.
@@ -158,6 +146,7 @@ FAMILIES: list[Family] = [
             "Several years as a band five nurse before stepping up to {t} is expected",
         ],
         ["staff nurse", "healthcare assistant"],
+        coded=["ward sister"],
     ),
     Family(
         "nurse practitioner",
@@ -371,12 +360,13 @@ FAMILIES: list[Family] = [
         ],
         ["Previous table service experience is welcome but not essential for the {t} role"],
         ["bartender"],
+        coded=["waitress"],
     ),
     Family(
         "bartender",
         "hospitality",
         ["bartender", "bar staff", "bar person"],
-        ["waiting staff"],
+        ["waiter"],
         [
             "As {t} you will pour drinks, mix cocktails and keep the bar stocked",
             "The {t} changes barrels and checks identification for age restricted sales",
@@ -388,7 +378,7 @@ FAMILIES: list[Family] = [
         "barista",
         "hospitality",
         ["barista", "coffee shop assistant"],
-        ["waiting staff"],
+        ["waiter"],
         [
             "As {t} you will make espresso drinks and serve cakes at the counter",
             "The {t} keeps the coffee machine clean and dials in the grinder each morning",

@@ -1,4 +1,4 @@
-"""Shared fixtures: a small Tollbridge Valley Jobs dump and a store trained on it once per session."""
+"""Shared fixtures: small dumps of both demo boards, and a store trained on each once per session."""
 
 from __future__ import annotations
 
@@ -21,10 +21,27 @@ IN_CI = os.environ.get("CI") == "true"
 
 @pytest.fixture(scope="session")
 def demo_dir(tmp_path_factory: pytest.TempPathFactory) -> Path:
-    """A generated demo dump (postings, queries, truth, pairs), small enough to train in seconds."""
+    """A generated Tollbridge Valley dump (postings, queries, truth, pairs), small enough to train in seconds."""
     out = tmp_path_factory.mktemp("demo")
     generate(out, SMALL_POSTINGS, seed=11)
     return out
+
+
+@pytest.fixture(scope="session")
+def oxmere_dir(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """A generated Oxmere Bay dump: the board written differently, on which no threshold was chosen."""
+    out = tmp_path_factory.mktemp("oxmere")
+    generate(out, SMALL_POSTINGS, seed=11, board="oxmere")
+    return out
+
+
+@pytest.fixture(scope="session")
+def oxmere_store(oxmere_dir: Path, tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """A store trained on the Oxmere Bay dump with the default config, served whatever the gate said
+    (the tests measure it; they do not assume it is good). Read-only."""
+    store = tmp_path_factory.mktemp("oxmere-store")
+    train_quietly(oxmere_dir / "postings.jsonl", store, demo_config(oxmere_dir), force=True)
+    return store
 
 
 def demo_config(demo_dir: Path, **overrides: object) -> TrainConfig:

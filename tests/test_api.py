@@ -6,7 +6,7 @@ import json
 import shutil
 import threading
 import time
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from pathlib import Path
 
 import pytest
@@ -228,18 +228,24 @@ def test_hot_swap_under_load_fails_no_request(client: TestClient, store_copy: Pa
             seen.append((r.status_code, r.json().get("model", {}).get("version")))
             n += 1
 
+    def until(done: Callable[[], bool], what: str) -> None:
+        deadline = time.monotonic() + 10
+        while not done():
+            assert time.monotonic() < deadline, what
+            time.sleep(0.01)
+
     workers = [threading.Thread(target=load) for _ in range(4)]
     for w in workers:
         w.start()
-    time.sleep(0.3)
+    until(lambda: len(seen) >= 50, "no load on the old bundle")
     new = _copy_bundle(store_copy)
-    deadline = time.monotonic() + 5
-    while client.get("/readyz").json()["version"] != new and time.monotonic() < deadline:
-        time.sleep(0.02)
-    time.sleep(0.3)
+    until(lambda: sum(v == new for _, v in seen) >= 50, "the new bundle did not serve under load")
     # A corrupt bundle is refused; the good one keeps serving.
     bad = _copy_bundle(store_copy, corrupt=True)
-    time.sleep(0.5)
+    until(
+        lambda: "widen_reloads_refused_total 1.0" in client.get("/metrics").text, "the corrupt bundle was not refused"
+    )
+    until(lambda: sum(v == new for _, v in seen) >= 100, "requests stopped after the refusal")
     stop.set()
     for w in workers:
         w.join()

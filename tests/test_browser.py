@@ -226,6 +226,20 @@ def test_hostile_strings_do_not_run_or_break_the_page(browser: Any, review_store
     context.close()
 
 
+def _search_on_page(page: Any, query: str, mode: str) -> list[tuple[str, bool]]:
+    """Search as a seeker would and wait for the page's final status (not its "searching..." line);
+    the results as (title, marked via expansion)."""
+    page.get_by_label("Job title or skill").fill(query)
+    page.get_by_label(mode).check()
+    page.get_by_role("button", name="Search").click()
+    page.wait_for_function("/postings \\(model /.test(document.getElementById('status').textContent)")
+    items = page.locator("#results li")
+    return [
+        (items.nth(i).locator("strong").inner_text(), "widened" in (items.nth(i).get_attribute("class") or ""))
+        for i in range(items.count())
+    ]
+
+
 def test_demo_search_page_marks_postings_only_an_expansion_found(
     browser: Any, review_store: Path, demo_dir: Path
 ) -> None:
@@ -233,20 +247,15 @@ def test_demo_search_page_marks_postings_only_an_expansion_found(
     page = browser.new_page(viewport={"width": 1100, "height": 900})
     with _served(review_store, demo_dir) as server:
         page.goto(f"{server.base}/demo")
-        page.get_by_label("Job title or skill").fill("section chef copperwick")
-        page.get_by_label("plain words only").check()
-        page.get_by_role("button", name="Search").click()
-        page.wait_for_function(
-            "document.querySelectorAll('#results li').length > 0 || "
-            "document.getElementById('status').textContent.length > 0"
-        )
-        plain_marks = page.locator("#results li.widened").count()
-        plain_count = page.locator("#results li").count()
-        page.get_by_label("with widen").check()
-        page.get_by_role("button", name="Search").click()
-        page.wait_for_selector("#results li.widened")
-        assert plain_marks == 0
-        assert page.locator("#results li").count() > plain_count
+        # A query whose own words find some open postings, fewer than a page of results.
+        plain = _search_on_page(page, "lorry driver hensby", "plain words only")
+        assert 0 < len(plain) < 20, plain
+        assert not any(marked for _, marked in plain)
+        expanded = _search_on_page(page, "lorry driver hensby", "with widen")
+        assert len(expanded) > len(plain)
+        # The seeker's own matches come first, then the postings only a neighbour phrase found, marked.
+        assert sorted(t for t, _ in expanded[: len(plain)]) == sorted(t for t, _ in plain)
+        assert [m for _, m in expanded] == [False] * len(plain) + [True] * (len(expanded) - len(plain))
         assert page.locator("#results li.widened .badge").first.inner_text() == "via expansion"
         page.screenshot(path=str(ARTIFACTS / "demo-search.png"), full_page=True)
     page.close()

@@ -5,7 +5,6 @@ from __future__ import annotations
 import os
 import subprocess
 import sys
-import time
 from pathlib import Path
 
 from tests.conftest import write_jsonl
@@ -24,8 +23,8 @@ def test_nightly_trains_on_the_newest_dump(tmp_path: Path) -> None:
     dumps = tmp_path / "dumps"
     dumps.mkdir()
     # The older dump is unusable; if it were picked the run would exit 2.
-    write_jsonl(dumps / "tollbridge-2026-11-29.jsonl", ["{broken"])
-    time.sleep(0.05)
+    older = write_jsonl(dumps / "tollbridge-2026-11-29.jsonl", ["{broken"])
+    os.utime(older, (1_700_000_000, 1_700_000_000))  # older than the next by its timestamp (2023)
     rows = [
         {"id": f"tvj-{i}", "title": f"Kitchen Porter {i % 7}", "description": "Wash pots in Hensby"} for i in range(60)
     ]

@@ -1,57 +1,44 @@
-"""Real text: the pipeline's vectors are as good as gensim's own on a corpus a package ships.
+"""Real text: the whole pipeline's vectors are as good as gensim's own on texts a package ships.
 
-Data: the Lee background corpus and WordSim-353 (Finkelstein et al. 2002, "Placing Search in
-Context: The Concept Revisited"), both shipped in gensim's test data.
+Data: the Lee background corpus and the English Wikipedia excerpt of gensim's test data, and
+WordSim-353 (Finkelstein et al. 2002, "Placing Search in Context: The Concept Revisited"), all
+shipped with gensim. The reference is gensim trained directly on the raw text with its own
+tokeniser (simple_preprocess); widen gets the same raw text as a dump. `make ablation` measures
+every stage in between (README, "Real text").
 """
 
 from __future__ import annotations
 
-import io
-from pathlib import Path
+import statistics
 
-import numpy as np
-from gensim.models import KeyedVectors, Word2Vec
-from gensim.test.utils import datapath
-from gensim.utils import simple_preprocess
+import pytest
 
-from tests.conftest import write_jsonl
-from training.config import load_config
-from training.pipeline import train
-from widen.store import Store
+from bench.ablation import documents, gensim_direct, pipeline_vectors, wordsim
 
-PARAMS = {"vector_size": 100, "window": 5, "negative": 5, "min_count": 5, "epochs": 20, "sample": 1e-3}
-SEEDS = (1, 2, 3)
+# The target of the real-text issue: the whole pipeline within 0.02 Spearman of gensim direct.
+TOLERANCE = 0.02
 
 
-def _wordsim(wv: KeyedVectors) -> float:
-    _pearson, spearman, _oov = wv.evaluate_word_pairs(datapath("wordsim353.tsv"))
-    return float(spearman[0])
-
-
-def test_wordsim_spearman_within_005_of_gensim_direct(tmp_path: Path) -> None:
-    docs = Path(datapath("lee_background.cor")).read_text(encoding="utf-8").splitlines()
-    # Both sides get the same words: gensim's simple_preprocess, written back as plain text that
-    # our tokeniser splits the same way. The check is then about training, not tokenising: on a
-    # corpus this small, WordSim moves by 0.1 with how "it's" or "governor-general" are split.
-    sentences = [simple_preprocess(d) for d in docs]
-    corpus = write_jsonl(
-        tmp_path / "lee.jsonl",
-        [{"id": f"lee-{i}", "title": "", "description": " ".join(s)} for i, s in enumerate(sentences)],
-    )
-    ours, direct = [], []
-    for seed in SEEDS:
-        # Phrases off (max_words = 1) so both sides learn over single words with the same parameters.
-        overrides = {f"embedding.{k}": v for k, v in PARAMS.items()} | {
-            "embedding.seed": seed,
-            "embedding.workers": 1,
-            "phrases.max_words": 1,
-            "gate.min_score": 0.0,
-        }
-        store = tmp_path / f"store-{seed}"
-        outcome = train(corpus, store, load_config(None, overrides), out=io.StringIO())
-        assert outcome.promoted
-        ours.append(_wordsim(Store(store).open_bundle().vectors))
-        model = Word2Vec(sentences, sg=1, hs=0, seed=seed, workers=1, **PARAMS)
-        direct.append(_wordsim(model.wv))
-    assert np.mean(direct) > 0.05, "reference model learned nothing; the comparison would be empty"
-    assert abs(np.mean(ours) - np.mean(direct)) <= 0.05, (ours, direct)
+@pytest.mark.parametrize(
+    "text, seeds, floor",
+    [
+        # Lee is small (58,000 words; 60 of WordSim's 353 pairs in vocabulary), so one seed moves
+        # Spearman by 0.05: the mean of three seeds is compared.
+        ("lee", (1, 2, 3), 0.10),
+        # The Wikipedia excerpt (453,000 words) is stable enough for one seed (the ablation's three
+        # seeds spread by 0.03), which keeps the test to about a minute.
+        ("wiki", (1,), 0.40),
+    ],
+)
+def test_pipeline_is_within_002_of_gensim_direct_on_real_text(text: str, seeds: tuple[int, ...], floor: float) -> None:
+    docs = documents(text)
+    ours = [wordsim(pipeline_vectors(docs, seed)) for seed in seeds]
+    direct = [wordsim(gensim_direct(docs, seed)) for seed in seeds]
+    ours_mean = statistics.mean(s for s, _ in ours)
+    direct_mean = statistics.mean(s for s, _ in direct)
+    # The reference learned what a model of this size learns on this text (figures of `make ablation`).
+    assert direct_mean > floor, direct
+    assert ours_mean >= direct_mean - TOLERANCE, (ours, direct)
+    # Both models are scored on (nearly) the same pairs: widen's de-duplication of repeated documents
+    # may cost a word or two its fifth occurrence, no more.
+    assert ours[0][1] <= direct[0][1] + 1.0, (ours, direct)

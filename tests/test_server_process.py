@@ -48,10 +48,15 @@ def test_a_decision_reaches_every_worker_within_a_second_and_survives_a_restart(
             assert victim in _neighbours(server.base, "lorry driver")
         body = {"phrase": "lorry driver", "neighbour": victim, "action": "block", "reviewer": "Dana, search team"}
         made = httpx.post(f"{server.base}/v1/decisions", json=body, headers=auth)
+        made_at = time.monotonic()
         assert made.status_code == 201, made.text
-        time.sleep(1.0)  # the promise: in force in every worker within 1 s (they poll every 0.5 s)
-        seen = [_neighbours(server.base, "lorry driver") for _ in range(16)]
-        assert all(victim not in n for n in seen), seen
+        # The promise: in force in every worker within 1 s (they poll every 0.5 s). Ask until sixteen
+        # answers in a row over fresh connections (so both workers answer) leave the victim out.
+        while True:
+            seen = [_neighbours(server.base, "lorry driver") for _ in range(16)]
+            if all(victim not in n for n in seen):
+                break
+            assert time.monotonic() - made_at < 1.0, seen
     with live_server(store, env) as server:
         assert victim not in _neighbours(server.base, "lorry driver")
         listed = httpx.get(f"{server.base}/v1/decisions").json()["decisions"]

@@ -1,7 +1,9 @@
 """The first pass over a dump: read, validate, de-duplicate and tokenise every posting once.
 
-What it reads goes to a scratch file of sentences (`T|D<TAB>tokens` lines, T for title), from
-which every later pass streams; memory follows the vocabulary, not the number of postings.
+What it reads goes to a scratch file of sentences, one a line, `M<TAB>tokens`: M is T for a
+title, D for other text, and lower case (t, d) when the sentence continues the block (paragraph,
+list item) of the line before. Every later pass streams from it; memory follows the vocabulary,
+not the number of postings. Phrase passes work sentence by sentence; skip-gram sees a block.
 """
 
 from __future__ import annotations
@@ -18,7 +20,7 @@ from typing import IO
 from training.corpus import Posting, PostingCorpus
 from training.progress import Progress
 from widen.phrases import Phraser
-from widen.text import key_of_text, sentences
+from widen.text import blocks, key_of_text
 
 __all__ = ["FirstPass", "Scratch"]
 
@@ -27,7 +29,7 @@ MAX_PROTECTED = 200_000
 
 
 class Scratch:
-    """The corpus as phrased so far, in a scratch file of `T|D<TAB>tokens` lines (T: title).
+    """The corpus as phrased so far, in a scratch file of `M<TAB>tokens` lines (see the module).
 
     `through(phraser)` streams it with one more phrase pass applied and writes that as the
     next scratch file, so the next pass reads it without applying earlier passes again.
@@ -70,9 +72,10 @@ def _tokenise_batch(batch: list[Posting], has_title: bool) -> list[_Tokenised]:
         flat: list[str] = []
         for number, text in enumerate(posting.texts):
             mark = "T" if number == 0 and has_title else "D"
-            for sent in sentences(text):
-                rows.append(f"{mark}\t{' '.join(sent)}\n")
-                flat.extend(sent)
+            for block in blocks(text):
+                for position, sent in enumerate(block):
+                    rows.append(f"{mark if position == 0 else mark.lower()}\t{' '.join(sent)}\n")
+                    flat.extend(sent)
         key = hashlib.blake2b("\x1f".join(flat).encode("utf-8"), digest_size=12).digest()
         protected = tuple(j for j in (key_of_text(v) for v in posting.protected) if j)
         out.append(_Tokenised(posting.line, key, len(flat), "".join(rows), protected))

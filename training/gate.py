@@ -120,16 +120,17 @@ def search_impact(
     index_folder: Path,
     out: IO[str],
 ) -> tuple[dict[str, float], dict[str, float] | None]:
-    """Expanded recall@100, nDCG@10 and exact-first of the candidate and of the serving bundle, each
-    judged with its own expansion options, on labelled queries over a tantivy index of `postings`."""
+    """Recall@100, nDCG@10 and exact-first of widen's recommended merge with the candidate and with the
+    serving bundle, each judged with its own expansion options, on labelled queries over a tantivy
+    index of `postings`."""
     labelled = read_queries(queries)
     print(f"[gate] search impact on {len(labelled)} labelled queries", file=out, flush=True)
     index = SearchIndex(postings, index_folder)
 
     def score(bundle: Bundle) -> dict[str, float]:
         lexicon = Lexicon(bundle)
-        report = evaluate(lexicon, decisions, index, labelled, lexicon.options)
-        return {k: report["expanded"][k] for k in ("recall@100", "ndcg@10", "exact_first")}
+        report = evaluate(lexicon, decisions, index, labelled, lexicon.options, methods=("all_required", "widen"))
+        return {k: report["methods"]["widen"][k] for k in ("recall@100", "ndcg@10", "exact_first")}
 
     return score(candidate), (score(serving) if serving is not None else None)
 

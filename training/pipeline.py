@@ -36,6 +36,7 @@ from widen.evaluation.runs import read_queries
 from widen.neighbours import normalise_rows, top_k_table
 from widen.phrases import Phraser
 from widen.store import Store
+from widen.text import PHRASE_JOINER, in_windows
 
 __all__ = ["TrainOutcome", "train", "summary"]
 
@@ -69,17 +70,65 @@ def _check_bad_fraction(corpus: PostingCorpus, used: int, config: TrainConfig) -
         )
 
 
-def _final_pass(phraser: Phraser, scratch: Scratch, phrased: Path) -> Counter[str]:
-    """Apply the last phrase pass, write plain token lines for skip-gram, count entries used in titles."""
+def _final_pass(phraser: Phraser, scratch: Scratch, phrased: Path) -> tuple[Counter[str], Counter[str]]:
+    """Apply the last phrase pass and write one line a block for skip-gram, whose windows then span
+    the sentences of a paragraph or list item (numbers and lone letters left out). Returns the count
+    of every entry written, and of the entries used in titles."""
+    counts: Counter[str] = Counter()
     in_titles: Counter[str] = Counter()
     last = Phraser(phraser.passes[-1:]) if scratch.generation < len(phraser.passes) else Phraser([])
+    block: list[str] = []
     with scratch.path.open(encoding="utf-8") as src, phrased.open("w", encoding="utf-8") as dst:
         for line in src:
             entries = last(line[2:].split())
-            if line[0] == "T":
+            if line[0] in "TD" and block:  # a new block starts: the one before is complete
+                dst.write(" ".join(block) + "\n")
+                block = []
+            if line[0] in "Tt":
                 in_titles.update(entries)
-            dst.write(" ".join(entries) + "\n")
-    return in_titles
+            kept = [e for e in entries if in_windows(e)]
+            counts.update(kept)
+            block.extend(kept)
+        if block:
+            dst.write(" ".join(block) + "\n")
+    return counts, in_titles
+
+
+def _keep_words(phrased: Path, counts: Counter[str], min_count: int) -> int:
+    """Give back to single words the occurrences phrases took, where a word would otherwise go without
+    a vector: a word seen fewer than `min_count` times on its own, but at least that often counting
+    the phrases it is in ("asylum" inside "asylum seekers"), gets phrase occurrences split back into
+    words until it reaches `min_count`; a phrase is never split below `min_count` itself. Returns
+    how many phrase occurrences were split."""
+    inside: Counter[str] = Counter()
+    for entry, n in counts.items():
+        if PHRASE_JOINER in entry:
+            for word in set(entry.split(PHRASE_JOINER)):
+                if in_windows(word):
+                    inside[word] += n
+    need = {w: min_count - counts[w] for w, n in inside.items() if counts[w] < min_count <= counts[w] + n}
+    if not need:
+        return 0
+    spare = {e: n - min_count for e, n in counts.items() if PHRASE_JOINER in e and n > min_count}
+    split = 0
+    rewritten = phrased.with_suffix(".words.txt")
+    with phrased.open(encoding="utf-8") as src, rewritten.open("w", encoding="utf-8") as dst:
+        for line in src:
+            out: list[str] = []
+            for entry in line.split():
+                words = entry.split(PHRASE_JOINER) if PHRASE_JOINER in entry else ()
+                if words and spare.get(entry, 0) > 0 and any(need.get(w, 0) > 0 for w in words):
+                    spare[entry] -= 1
+                    split += 1
+                    for word in words:
+                        if word in need:
+                            need[word] -= 1
+                    out.extend(w for w in words if in_windows(w))
+                else:
+                    out.append(entry)
+            dst.write(" ".join(out) + "\n")
+    rewritten.replace(phrased)
+    return split
 
 
 def _serving_bundle(store: Store) -> Bundle | None:
@@ -143,7 +192,8 @@ def train(
             with Progress("phrase passes", total=passes, unit="passes", stream=out, every=0) as bar:
                 phraser, table = learn_phrases(first, scratch.through, config.phrases, lambda n: bar.update())
                 _check_bad_fraction(corpus, first.used, config)
-                in_titles = _final_pass(phraser, scratch, phrased)
+                counts, in_titles = _final_pass(phraser, scratch, phrased)
+                _keep_words(phrased, counts, config.embedding.min_count)
             seconds["read, tokenise and phrases"] = time.monotonic() - t
 
             t = time.monotonic()

@@ -4,7 +4,9 @@ Postings at training time and queries at serving time go through the same steps,
 query token is spelled exactly as the corpus token it should match: HTML tags stripped
 (block tags end a sentence), entities decoded, Unicode NFKC, case-folded, split into
 sentences, then into tokens. Trade tokens stay whole (c++, c#, .net, a&e, 24/7, c+e, 1st,
-node.js, k-12, h.c.a.); lone punctuation is dropped.
+node.js, k-12, h.c.a.); lone punctuation is dropped. A hyphenated compound is its words
+("part-time" is "part time", "left-wing" is "left wing"), and so are contractions and
+possessives ("employer's" is "employer s"), unless a part holds a digit ("k-12", "covid-19").
 
 A phrase has three written forms, and this module is the only one that converts between them:
 - the *phrase*: its tokens joined by one space ("staff nurse"), what people read and decisions key on;
@@ -22,6 +24,7 @@ import unicodedata
 __all__ = [
     "PHRASE_JOINER",
     "normalise",
+    "blocks",
     "sentences",
     "tokens",
     "phrase_of",
@@ -29,6 +32,7 @@ __all__ = [
     "display",
     "key_of_text",
     "words_in",
+    "in_windows",
     "form",
     "same_form",
 ]
@@ -48,14 +52,14 @@ _QUOTES = str.maketrans({"\u2018": "'", "\u2019": "'", "\u201b": "'", "\u2032": 
 # One alternation, tried left to right at each position:
 #   1. dotted abbreviations: h.c.a., e.g.
 #   2. leading-dot names: .net
-#   3. words with inner joiners: c+e, a&e, node.js, k-12, 24/7, 24,500, 12.40, we're
-#      and trailing + or # (c++, c#)
+#   3. words with inner joiners: c+e, a&e, node.js, k-12, 24/7, 24,500, 12.40, we're, a slash
+#      between two lone letters (p/t, f/t), and trailing + or # (c++, c#)
 #   4. a sentence end: . ! ? ; or a line break
 _TOKEN = re.compile(
     r"""
     (?P<abbr>(?<![\w.])(?:[^\W\d_]\.){2,}(?![\w]))
   | (?P<dot>(?<![\w.])\.[^\W\d_]\w*(?![\w.]))
-  | (?P<word>[^\W_]+(?:(?:[.&+\-']|(?<=\d)[/,](?=\d))[^\W_]+)*[+#]*)
+  | (?P<word>[^\W_]+(?:(?:[.&+\-']|(?<=\d)[/,](?=\d)|(?<=\b[^\W\d_])/(?=[^\W\d_]\b))[^\W_]+)*[+#]*)
   | (?P<end>[.!?;]+(?=\s|$)|\n)
     """,
     re.VERBOSE,
@@ -77,11 +81,15 @@ def normalise(text: str) -> str:
     return text
 
 
-def sentences(text: str) -> list[list[str]]:
-    """Split text into sentences of tokens; empty sentences are left out."""
-    out: list[list[str]] = []
-    current: list[str] = []
+def blocks(text: str) -> list[list[list[str]]]:
+    """Text as blocks (a paragraph, a list item, a line) of sentences of tokens; empty ones left out.
+
+    Phrases never span a sentence; skip-gram windows span the sentences of one block.
+    """
+    out: list[list[list[str]]] = []
     for line in normalise(text).split("\n"):
+        block: list[list[str]] = []
+        current: list[str] = []
         for chunk in line.split():
             if chunk.isalnum():
                 # Fast path for the common plain word; same result as the full pattern.
@@ -90,14 +98,43 @@ def sentences(text: str) -> list[list[str]]:
             for match in _TOKEN.finditer(chunk):
                 if match.lastgroup == "end":
                     if current:
-                        out.append(current)
+                        block.append(current)
                         current = []
                 else:
-                    current.append(match.group())
+                    current.extend(_compound(match.group()))
         if current:
-            out.append(current)
-            current = []
+            block.append(current)
+        if block:
+            out.append(block)
     return out
+
+
+def sentences(text: str) -> list[list[str]]:
+    """Split text into sentences of tokens; empty sentences are left out."""
+    return [sentence for block in blocks(text) for sentence in block]
+
+
+_COMPOUND = re.compile(r"[-']")
+
+
+def _compound(word: str) -> list[str]:
+    """A hyphenated or apostrophed word as its parts, unless a part holds a digit (k-12 stays whole)."""
+    if ("-" not in word and "'" not in word) or any(ch.isdigit() for ch in word):
+        return [word]
+    return [part for part in _COMPOUND.split(word) if part]
+
+
+_NUMBER = re.compile(r"^\d[\d.,:]*$")
+
+
+def in_windows(entry: str) -> bool:
+    """Whether skip-gram sees an entry: not a bare number ("24,500", "2026") nor a single character.
+
+    Numbers and lone letters carry no meaning of their own in a window and crowd out the words
+    around them; trade tokens (c++, c#, 24/7, c+e, 1st) and phrases holding a number ("class 1")
+    are kept.
+    """
+    return len(entry) > 1 and not _NUMBER.match(entry)
 
 
 def tokens(text: str) -> list[str]:

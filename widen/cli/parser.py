@@ -113,10 +113,13 @@ def build_parser() -> argparse.ArgumentParser:
         "evaluate",
         help="measure what expansion does to search results on labelled queries (tantivy BM25)",
         formatter_class=_FORMAT,
-        description="Index the postings with tantivy (once per dump), run every labelled query as the "
-        "front end does today (the seeker's words only) and expanded (query_text), and report recall@k, "
-        "nDCG@10, MRR and the exact-first rate, per family and for the ten queries that lost most.",
+        description="Index the postings with tantivy (once per dump and window), run every labelled query with "
+        "every method (the seeker's phrases all required, the plain bag of words, RM3, widen merged three ways, "
+        "and with --truth a perfect hand-kept list) and report recall@k, nDCG@10, MRR, exact-first and a paired "
+        "randomisation test against the bag of words, by kind of query and by family.",
         epilog="examples:\n  widen evaluate --store build/store --postings build/demo/open_postings.jsonl "
+        "--queries build/demo/queries.jsonl --truth build/demo/truth.json --out build/eval\n"
+        "  widen evaluate --store build/store --postings build/demo/postings.jsonl --days 7,14,30,60 "
         "--queries build/demo/queries.jsonl --out build/eval",
     )
     p.add_argument("--store", type=Path, required=True)
@@ -124,11 +127,16 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--queries", type=Path, required=True, help="labelled queries, JSON Lines")
     p.add_argument("--out", type=Path, required=True, help="folder for report.json, report.md, runs, plots")
     p.add_argument("--k", default="10,100", help="recall cut-offs, comma separated (default 10,100)")
+    p.add_argument("--truth", type=Path, help="the board's job families: adds the hand-kept list as an upper bound")
     p.add_argument(
-        "--baseline-boost",
-        type=float,
-        default=10.0,
-        help="the expanded query is (baseline)^B OR (query_text); 0 sends query_text alone (default 10)",
+        "--days",
+        help="index only the postings of the dump's last N days; several (7,14,30,60) draw the window curve",
+    )
+    p.add_argument(
+        "--rm3",
+        default="10,10,0.5",
+        metavar="DOCS,TERMS,WEIGHT",
+        help="RM3's feedback postings, terms and original-query weight (default 10,10,0.5)",
     )
     p.set_defaults(handler=expanding.evaluate)
 

@@ -1,14 +1,18 @@
 """A tantivy index of a postings dump: the stand-in for the team's own keyword search engine.
 
-BM25 (tantivy's scoring), the engine's own analysis, title weighted above description.
-Built once per dump: the index folder is named by the dump's sha256 and reused.
+BM25 (tantivy's scoring), the engine's own analysis with English stemming (`en_stem`: words
+lower-cased and stemmed, the strongest plain set-up the engine offers), title weighted above
+description. Built once per postings file and window: the index folder is named by the file's
+sha256 (and the window), and reused.
 """
 
 from __future__ import annotations
 
 import json
 import shutil
+from collections.abc import Iterator
 from dataclasses import dataclass
+from datetime import date, timedelta
 from pathlib import Path
 
 import tantivy
@@ -16,11 +20,14 @@ import tantivy
 from widen.bundle import sha256_file
 from widen.text import normalise
 
-__all__ = ["SearchIndex", "Hit", "TITLE_BOOST"]
+__all__ = ["SearchIndex", "Hit", "TITLE_BOOST", "FIELDS"]
 
 #: How much a title match outweighs a description match (common practice, no source).
 TITLE_BOOST = 3.0
-_FIELDS = ["title", "description"]
+FIELDS = ["title", "description"]
+#: Changes whenever the schema or the analysis changes; an index of another version is rebuilt.
+SCHEMA_VERSION = 2
+_MARKER = "widen-index.json"
 
 
 @dataclass(frozen=True)
@@ -32,91 +39,155 @@ class Hit:
     employer: str
 
 
-class SearchIndex:
-    """Open (or build) the index of `postings` under `folder`/<sha256>. Parameters: the dump, the folder."""
+def _analyzer() -> tantivy.TextAnalyzer:
+    """The analysis of tantivy's `en_stem` tokenizer, built again to analyse text outside the index
+    (RM3 counts feedback terms with it): split on non-alphanumerics, drop tokens over 40 bytes,
+    lower-case, English (Porter2) stemming."""
+    return (
+        tantivy.TextAnalyzerBuilder(tantivy.Tokenizer.simple())
+        .filter(tantivy.Filter.remove_long(40))
+        .filter(tantivy.Filter.lowercase())
+        .filter(tantivy.Filter.stemmer("english"))
+        .build()
+    )
 
-    def __init__(self, postings: Path, folder: Path) -> None:
+
+def _rows(postings: Path, days: int | None) -> Iterator[dict[str, object]]:
+    """The postings of a dump; with `days`, only those posted in the last `days` days of the dump."""
+    rows = []
+    with postings.open(encoding="utf-8") as fh:
+        for line in fh:
+            try:
+                row = json.loads(line)
+            except ValueError:
+                continue  # the same records widen train skips
+            if isinstance(row, dict):
+                rows.append(row)
+    if days is not None:
+        dated = [str(r.get("posted_at") or "") for r in rows]
+        newest = max((d for d in dated if d), default="")
+        if newest:
+            first = (date.fromisoformat(newest[:10]) - timedelta(days=days - 1)).isoformat()
+            rows = [r for r, d in zip(rows, dated, strict=True) if d[:10] >= first]
+    yield from rows
+
+
+class SearchIndex:
+    """Open (or build) the index of `postings` under `folder`. Parameters: the dump, the folder, and
+    `days` to index only the postings of the dump's last `days` days (the open postings)."""
+
+    def __init__(self, postings: Path, folder: Path, days: int | None = None) -> None:
         self.sha256 = sha256_file(postings)
-        self.path = Path(folder) / self.sha256[:32]
-        if not (self.path / "widen-index.json").is_file():
-            self._build(postings)
+        name = self.sha256[:32] + (f"-{days}d" if days else "")
+        self.path = Path(folder) / name
+        marker = self.path / _MARKER
+        if not marker.is_file() or json.loads(marker.read_text()).get("schema") != SCHEMA_VERSION:
+            self._build(postings, days)
+        self._open()
+
+    def _open(self) -> None:
         self.index = tantivy.Index.open(str(self.path))
         self.index.reload()
+        self.analyzer = _analyzer()
+        meta = json.loads((self.path / _MARKER).read_text(encoding="utf-8"))
+        self.size = int(meta["postings"])
+        self._ids: set[str] | None = None
 
     @classmethod
     def open_built(cls, path: Path) -> SearchIndex:
-        """Open an index folder built earlier (its widen-index.json present), without its dump."""
-        meta = json.loads((Path(path) / "widen-index.json").read_text(encoding="utf-8"))
+        """Open an index folder built earlier (its marker present), without its dump."""
+        meta = json.loads((Path(path) / _MARKER).read_text(encoding="utf-8"))
         self = cls.__new__(cls)
         self.sha256 = str(meta["sha256"])
         self.path = Path(path)
-        self.index = tantivy.Index.open(str(self.path))
-        self.index.reload()
+        self._open()
         return self
 
     @staticmethod
     def newest_built(folder: Path) -> Path | None:
-        """The most recently built complete index under `folder`, if any."""
+        """The most recently built complete index of the current schema under `folder`, if any."""
         if not Path(folder).is_dir():
             return None
-        built = [p for p in Path(folder).iterdir() if (p / "widen-index.json").is_file()]
-        return max(built, key=lambda p: (p / "widen-index.json").stat().st_mtime, default=None)
+        built = [
+            p
+            for p in Path(folder).iterdir()
+            if (p / _MARKER).is_file() and json.loads((p / _MARKER).read_text()).get("schema") == SCHEMA_VERSION
+        ]
+        return max(built, key=lambda p: (p / _MARKER).stat().st_mtime, default=None)
 
     @staticmethod
     def _schema() -> tantivy.Schema:
         builder = tantivy.SchemaBuilder()
         builder.add_text_field("id", stored=True, tokenizer_name="raw")
-        builder.add_text_field("title", stored=True)
-        builder.add_text_field("description")
+        builder.add_text_field("title", stored=True, tokenizer_name="en_stem")
+        builder.add_text_field("description", stored=True, tokenizer_name="en_stem")
         builder.add_text_field("location", stored=True, tokenizer_name="raw", index_option="basic")
         builder.add_text_field("employer", stored=True, tokenizer_name="raw", index_option="basic")
         return builder.build()
 
-    def _build(self, postings: Path) -> None:
+    def _build(self, postings: Path, days: int | None) -> None:
         partial = self.path.with_name(self.path.name + ".partial")
         shutil.rmtree(partial, ignore_errors=True)
         partial.mkdir(parents=True)
         index = tantivy.Index(self._schema(), path=str(partial))
         writer = index.writer(heap_size=100_000_000, num_threads=1)
         count = 0
-        with postings.open(encoding="utf-8") as fh:
-            for line in fh:
-                try:
-                    p = json.loads(line)
-                    doc = tantivy.Document(
-                        id=str(p["id"]),
-                        title=str(p.get("title") or ""),
-                        description=normalise(str(p.get("description") or "")),
-                        location=str(p.get("location") or ""),
-                        employer=str(p.get("employer") or ""),
-                    )
-                except (ValueError, KeyError, TypeError):
-                    continue  # the same records widen train skips
-                writer.add_document(doc)
-                count += 1
+        for p in _rows(postings, days):
+            try:
+                doc = tantivy.Document(
+                    id=str(p["id"]),
+                    title=str(p.get("title") or ""),
+                    description=normalise(str(p.get("description") or "")),
+                    location=str(p.get("location") or ""),
+                    employer=str(p.get("employer") or ""),
+                )
+            except (KeyError, TypeError):
+                continue  # the same records widen train skips
+            writer.add_document(doc)
+            count += 1
         writer.commit()
         writer.wait_merging_threads()
-        (partial / "widen-index.json").write_text(json.dumps({"sha256": self.sha256, "postings": count}) + "\n")
+        meta = {"sha256": self.sha256, "postings": count, "days": days, "schema": SCHEMA_VERSION}
+        (partial / _MARKER).write_text(json.dumps(meta) + "\n")
         shutil.rmtree(self.path, ignore_errors=True)
         partial.rename(self.path)
+
+    # -- asking the engine ------------------------------------------------------------------
+
+    @property
+    def ids(self) -> set[str]:
+        """Every posting id the index holds."""
+        if self._ids is None:
+            searcher = self.index.searcher()
+            found = searcher.search(tantivy.Query.all_query(), max(searcher.num_docs, 1)).hits
+            self._ids = {searcher.doc(address)["id"][0] for _, address in found}
+        return self._ids
+
+    def parse(self, query_text: str, boosted: bool = True) -> tantivy.Query:
+        """A query in the engine's syntax, over title and description (title boosted); ValueError if invalid."""
+        boosts = {"title": TITLE_BOOST} if boosted else {}
+        return self.index.parse_query(query_text, FIELDS, field_boosts=boosts)
+
+    def run(self, query: tantivy.Query, limit: int = 100) -> list[tuple[str, float]]:
+        """The best `limit` postings for a query object: (id, score), best first."""
+        searcher = self.index.searcher()
+        return [(searcher.doc(a)["id"][0], float(s)) for s, a in searcher.search(query, limit).hits]
 
     def matching(self, query_text: str) -> set[str]:
         """Every posting the query matches, at any depth."""
         if not query_text.strip():
             return set()
-        query = self.index.parse_query(query_text, _FIELDS)
         searcher = self.index.searcher()
         limit = max(searcher.num_docs, 1)
-        return {searcher.doc(address)["id"][0] for _, address in searcher.search(query, limit).hits}
+        return {searcher.doc(a)["id"][0] for _, a in searcher.search(self.parse(query_text, False), limit).hits}
 
     def search(self, query_text: str, limit: int = 100) -> list[Hit]:
         """Run a query in the engine's own syntax; the best `limit` postings, best first."""
         if not query_text.strip():
             return []
-        query = self.index.parse_query(query_text, _FIELDS, field_boosts={"title": TITLE_BOOST})
         searcher = self.index.searcher()
         hits = []
-        for score, address in searcher.search(query, limit).hits:
+        for score, address in searcher.search(self.parse(query_text), limit).hits:
             doc = searcher.doc(address)
             hits.append(
                 Hit(
@@ -128,3 +199,20 @@ class SearchIndex:
                 )
             )
         return hits
+
+    def texts(self, query: tantivy.Query, limit: int) -> list[tuple[float, str]]:
+        """The best `limit` postings for a query: (score, title and description as stored)."""
+        searcher = self.index.searcher()
+        out = []
+        for score, address in searcher.search(query, limit).hits:
+            doc = searcher.doc(address)
+            out.append((float(score), f"{doc.get_first('title') or ''}\n{doc.get_first('description') or ''}"))
+        return out
+
+    def analyse(self, text: str) -> list[str]:
+        """The terms the engine would index for a text."""
+        return list(self.analyzer.analyze(text))
+
+    def term(self, field: str, term: str) -> tantivy.Query:
+        """The query for one already-analysed term in one field."""
+        return tantivy.Query.term_query(self.index.schema, field, term)

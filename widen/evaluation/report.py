@@ -7,100 +7,177 @@ from pathlib import Path
 from typing import Any
 
 from widen.evaluation.metrics import trec_order
-from widen.evaluation.runs import RUN_DEPTH
 
-__all__ = ["write_report"]
+__all__ = ["write_report", "write_windows", "methods_table"]
+
+_SHOWN = ("bag_of_words", "rm3", "widen", "bag_of_words_widen")
+_CUTS = (10, 25, 50, 100)
 
 
-def write_report(report: dict[str, Any], out: Path, model_version: str) -> list[Path]:
-    """report.json, report.md, qrels.txt, baseline.run, expanded.run and two PNG plots."""
+def _plt() -> Any:
     import matplotlib
 
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
+    return plt
+
+
+def methods_table(report: dict[str, Any]) -> list[str]:
+    """The Markdown table of every method: recall@10/100, nDCG@10, MRR, exact-first, p against the bag of words."""
+    p = report["significance"]["p"]
+
+    def shown(value: float) -> str:
+        return "< 0.001" if value < 0.001 else f"{value:.3g}"
+
+    lines = [
+        "| method | recall@10 | recall@100 | nDCG@10 | MRR | exact-first | p (nDCG@10, recall@100) vs bag of words |",
+        "|---|---|---|---|---|---|---|",
+    ]
+    for m, v in report["methods"].items():
+        sig = f"{shown(p[m]['ndcg@10'])}, {shown(p[m]['recall@100'])}" if m in p else "(the baseline)"
+        lines.append(
+            f"| {m}: {report['descriptions'][m]} | {v['recall@10']:.3f} | {v['recall@100']:.3f} | {v['ndcg@10']:.3f}"
+            f" | {v['mrr']:.3f} | {v['exact_first']:.2f} | {sig} |"
+        )
+    return lines
+
+
+def _kinds_table(report: dict[str, Any]) -> list[str]:
+    shown = [m for m in _SHOWN if m in report["methods"]]
+    head = " | ".join(f"{m} recall@100 / nDCG@10 / exact-first" for m in shown)
+    lines = [
+        f"| kind (queries) | {head} | widen recall@100 against the same queries' base |",
+        "|---" * (len(shown) + 2) + "|",
+    ]
+    for kind, entry in report["kinds"].items():
+        cells = []
+        for m in shown:
+            v = entry["methods"][m]
+            cells.append(f"{v['recall@100']:.3f} / {v['ndcg@10']:.3f} / {v['exact_first']:.2f}")
+        ratio = entry.get("ratio_to_base", {}).get("widen", {}).get("recall@100")
+        lines.append(
+            f"| {kind} ({entry['queries']}) | {' | '.join(cells)} | {'' if ratio is None else f'{ratio:.2f}'} |"
+        )
+    return lines
+
+
+def write_report(report: dict[str, Any], out: Path, model_version: str, board: str = "") -> list[Path]:
+    """report.json, report.md, qrels.txt, a TREC run file per method and two PNG plots."""
+    plt = _plt()
     out.mkdir(parents=True, exist_ok=True)
-    written = []
     runs, qrels = report["_runs"], report["_qrels"]
     public = {k: v for k, v in report.items() if not k.startswith("_")}
     public["model"] = model_version
+    public["board"] = board
     (out / "report.json").write_text(json.dumps(public, indent=2) + "\n", encoding="utf-8")
     with (out / "qrels.txt").open("w", encoding="utf-8") as fh:
         for qid, rel in qrels.items():
             for doc, grade in sorted(rel.items()):
                 fh.write(f"{qid} 0 {doc} {grade}\n")
+    written = [out / "report.json", out / "qrels.txt"]
     for name, run in runs.items():
         with (out / f"{name}.run").open("w", encoding="utf-8") as fh:
             for qid, docs in run.items():
                 for rank, doc in enumerate(trec_order(docs), start=1):
                     fh.write(f"{qid} Q0 {doc} {rank} {docs[doc]:.6f} widen-{name}\n")
-    written += [out / "report.json", out / "qrels.txt", out / "baseline.run", out / "expanded.run"]
+        written.append(out / f"{name}.run")
 
-    ks = range(1, RUN_DEPTH + 1)
     fig, ax = plt.subplots(figsize=(7, 4.2))
-    ax.plot(ks, report["recall_curve"]["baseline"], label="baseline (seeker's words only)", color="#7a7a7a")
-    ax.plot(ks, report["recall_curve"]["expanded"], label="expanded (widen)", color="#1f6f8b", linewidth=2)
+    for m, values in report["recall_curve"].items():
+        ax.plot(_CUTS, values, marker="o", label=m, linewidth=2 if m == "widen" else 1)
     ax.set_xlabel("k (postings retrieved)")
     ax.set_ylabel("mean recall@k")
-    top = max(max(report["recall_curve"]["baseline"]), max(report["recall_curve"]["expanded"]), 0.01)
-    ax.set_ylim(0, top * 1.15)
-    ax.set_title("Recall@k on the labelled queries")
+    ax.set_title(f"Recall@k, {board or 'labelled queries'}")
     ax.grid(alpha=0.3)
-    ax.legend(loc="lower right")
+    ax.legend(loc="lower right", fontsize=8)
     fig.tight_layout()
     fig.savefig(out / "recall_at_k.png", dpi=110)
     plt.close(fig)
 
-    families = list(report["per_family"])
-    gains = [
-        report["per_family"][f]["expanded"]["recall@100"] - report["per_family"][f]["baseline"]["recall@100"]
-        for f in families
-    ]
-    fig, ax = plt.subplots(figsize=(7, max(4, 0.24 * len(families))))
-    ax.barh(families, gains, color=["#1f6f8b" if g >= 0 else "#b5482f" for g in gains])
-    ax.set_xlabel("recall@100 gain (expanded - baseline)")
-    ax.set_title("Recall gain per job family")
-    ax.invert_yaxis()
-    ax.grid(axis="x", alpha=0.3)
+    kinds = list(report["kinds"])
+    shown = [m for m in _SHOWN if m in report["methods"]]
+    fig, ax = plt.subplots(figsize=(7, 4))
+    width = 0.8 / max(len(shown), 1)
+    for i, m in enumerate(shown):
+        ax.bar(
+            [k + i * width for k in range(len(kinds))],
+            [report["kinds"][kind]["methods"][m]["recall@100"] for kind in kinds],
+            width,
+            label=m,
+        )
+    ax.set_xticks([k + width * (len(shown) - 1) / 2 for k in range(len(kinds))], kinds)
+    ax.set_ylabel("mean recall@100")
+    ax.set_title("Recall@100 by kind of query")
+    ax.legend(fontsize=8)
     fig.tight_layout()
-    fig.savefig(out / "recall_gain_per_family.png", dpi=110)
+    fig.savefig(out / "recall_by_kind.png", dpi=110)
     plt.close(fig)
-    written += [out / "recall_at_k.png", out / "recall_gain_per_family.png"]
+    written += [out / "recall_at_k.png", out / "recall_by_kind.png"]
 
     lines = [
-        f"# Search impact of widen (bundle {model_version})",
+        f"# Search impact of widen on {board or 'the labelled queries'} (bundle {model_version})",
         "",
-        f"{report['queries']} labelled queries, tantivy BM25 (title weighted above description). "
-        f"Expanded query: (baseline)^{report['baseline_boost']:g} OR (query_text)"
-        if report["baseline_boost"]
-        else f"{report['queries']} labelled queries, tantivy BM25; expanded query: query_text as it is.",
+        f"{report['queries']} judged queries ({report['left_out']} left out: no relevant posting among the "
+        f"{report['index_postings']} indexed), tantivy BM25 with English stemming, title weighted 3x.",
         "",
-        "| metric | baseline | expanded |",
-        "|---|---|---|",
-    ]
-    for metric in report["baseline"]:
-        lines.append(f"| {metric} | {report['baseline'][metric]:.4f} | {report['expanded'][metric]:.4f} |")
-    lines += [
+        *methods_table(report),
+        "",
+        "## By kind of query",
+        "",
+        *_kinds_table(report),
         "",
         "## Per family (recall@100, nDCG@10)",
         "",
-        "| family | recall@100 baseline | recall@100 expanded | nDCG@10 baseline | nDCG@10 expanded |",
-        "|---|---|---|---|---|",
+        "| family | bag of words | widen |",
+        "|---|---|---|",
     ]
-    for f, v in report["per_family"].items():
-        b, e = v["baseline"], v["expanded"]
-        lines.append(
-            f"| {f} | {b['recall@100']:.3f} | {e['recall@100']:.3f} | {b['ndcg@10']:.3f} | {e['ndcg@10']:.3f} |"
-        )
-    lines += ["", "## The ten queries that lost most nDCG@10", ""]
-    losses = [w["ndcg@10"]["expanded"] - w["ndcg@10"]["baseline"] for w in report["worst"]]
-    if all(loss >= 0 for loss in losses):
-        lines += ["No query lost nDCG@10 with expansion; these changed least.", ""]
-    lines += ["| query | baseline | expanded | change |", "|---|---|---|---|"]
-    for w, loss in zip(report["worst"], losses, strict=True):
-        b, e = w["ndcg@10"]["baseline"], w["ndcg@10"]["expanded"]
-        lines.append(f"| {w['query']} | {b:.3f} | {e:.3f} | {loss:+.3f} |")
-    lines += ["", "![recall@k](recall_at_k.png)", "", "![recall gain per family](recall_gain_per_family.png)", ""]
+    for family, v in report["per_family"].items():
+        b, w = v.get("bag_of_words"), v.get("widen")
+        if b and w:
+            lines.append(
+                f"| {family} | {b['recall@100']:.3f}, {b['ndcg@10']:.3f} | {w['recall@100']:.3f}, {w['ndcg@10']:.3f} |"
+            )
+    lines += ["", "## The ten queries where widen lost most nDCG@10 against the bag of words", ""]
+    lines += ["| query | bag of words | widen |", "|---|---|---|"]
+    for w in report["worst"]:
+        values = list(w["ndcg@10"].values())
+        lines.append(f"| {w['query']} | {values[0]:.3f} | {values[-1]:.3f} |")
+    lines += ["", "![recall@k](recall_at_k.png)", "", "![recall@100 by kind](recall_by_kind.png)", ""]
     (out / "report.md").write_text("\n".join(lines), encoding="utf-8")
     written.append(out / "report.md")
     return written
+
+
+def write_windows(curve: dict[int, dict[str, Any]], out: Path, board: str = "") -> list[Path]:
+    """The index window as a curve: widen's recall@100 and nDCG@10 over the bag of words', by window."""
+    plt = _plt()
+    out.mkdir(parents=True, exist_ok=True)
+    days = sorted(curve)
+    fig, ax = plt.subplots(figsize=(7, 4))
+    for metric in ("recall@100", "ndcg@10"):
+        for against, style in (("bag_of_words", "-"), ("all_required", ":")):
+            ratios = [
+                curve[d]["methods"]["widen"][metric] / max(curve[d]["methods"][against][metric], 1e-9) for d in days
+            ]
+            ax.plot(days, ratios, style, marker="o", label=f"{metric}, widen / {against}")
+    ax.axhline(1.0, color="#888", linewidth=0.8)
+    ax.set_xlabel("days of postings in the index (the open postings)")
+    ax.set_ylabel("ratio")
+    ax.set_title(f"widen against the plain baselines by index window, {board}")
+    ax.legend(fontsize=8)
+    fig.tight_layout()
+    fig.savefig(out / "window_curve.png", dpi=110)
+    plt.close(fig)
+    rows = {
+        d: {
+            "postings": curve[d]["index_postings"],
+            "queries": curve[d]["queries"],
+            **{
+                m: curve[d]["methods"][m] for m in ("all_required", "bag_of_words", "widen") if m in curve[d]["methods"]
+            },
+        }
+        for d in days
+    }
+    (out / "windows.json").write_text(json.dumps(rows, indent=2) + "\n", encoding="utf-8")
+    return [out / "window_curve.png", out / "windows.json"]

@@ -1,29 +1,38 @@
 """`widen evaluate`: what expansion does to real search results, on labelled queries.
 
-For every labelled query the front end's two choices are run on the tantivy index: the
-baseline (the query's own clauses, as sent today) and the expanded query. Metrics follow
-trec_eval's definitions (`widen.evaluation.metrics`).
+Every method of `widen.evaluation.methods` runs every labelled query on the same tantivy index;
+metrics follow trec_eval's definitions (`widen.evaluation.metrics`). Relevance counts only the
+postings the index holds, and a query with no relevant posting there is left out (and counted).
+Exact-first is computed for every method: the share of queries where every retrieved posting
+that matches the seeker's own words (all of its segments as phrases) ranks above every posting
+that does not.
 """
 
 from __future__ import annotations
 
 import json
+import statistics
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from widen.decisions import DecisionSet
 from widen.evaluation.index import SearchIndex
+from widen.evaluation.methods import METHODS, CuratedList, method_queries
 from widen.evaluation.metrics import ndcg_at, recall_at, reciprocal_rank, trec_order
+from widen.evaluation.rm3 import RM3
+from widen.evaluation.significance import paired_randomisation
 from widen.expansion import expand
 from widen.lexicon import Lexicon
 from widen.options import ExpansionOptions
-from widen.query_text import BASELINE_BOOST, baseline_text, merged_text
 
-__all__ = ["LabelledQuery", "evaluate", "read_queries", "RUN_DEPTH"]
+__all__ = ["LabelledQuery", "evaluate", "read_queries", "RUN_DEPTH", "KINDS"]
 
 RUN_DEPTH = 100
+#: The kinds of seeker query, and the methods whose figures are broken down by kind.
+KINDS = ("title", "town", "noise", "shift", "typo")
+BASELINE = "bag_of_words"
 
 
 @dataclass(frozen=True)
@@ -32,6 +41,9 @@ class LabelledQuery:
     query: str
     relevant: dict[str, int]
     family: str
+    kind: str = "title"
+    base: str | None = None
+    extra: dict[str, Any] = field(default_factory=dict)
 
 
 def read_queries(path: Path) -> list[LabelledQuery]:
@@ -48,6 +60,9 @@ def read_queries(path: Path) -> list[LabelledQuery]:
                         str(row["query"]),
                         {str(k): int(v) for k, v in row["relevant"].items()},
                         str(row.get("family", "")),
+                        str(row.get("kind") or "title"),
+                        str(row["base"]) if row.get("base") else None,
+                        {k: row[k] for k in ("town", "pattern", "title") if row.get(k)},
                     )
                 )
             except (ValueError, KeyError, TypeError, AttributeError) as exc:
@@ -57,6 +72,16 @@ def read_queries(path: Path) -> list[LabelledQuery]:
     return queries
 
 
+def _exact_first(ranked: Sequence[str], exact: set[str]) -> bool:
+    """Every retrieved posting that matches the seeker's words ranks above every one that does not."""
+    first_other = next((i for i, d in enumerate(ranked) if d not in exact), len(ranked))
+    return all(d not in exact for d in ranked[first_other:])
+
+
+def _mean(values: Sequence[float]) -> float:
+    return round(statistics.fmean(values), 6) if values else 0.0
+
+
 def evaluate(
     lexicon: Lexicon,
     decisions: DecisionSet,
@@ -64,83 +89,98 @@ def evaluate(
     queries: list[LabelledQuery],
     options: ExpansionOptions,
     ks: Sequence[int] = (10, 100),
-    baseline_boost: float = BASELINE_BOOST,
+    truth: dict[str, Any] | None = None,
+    rm3: RM3 | None = None,
+    methods: Sequence[str] | None = None,
 ) -> dict[str, Any]:
-    """Run baseline and expanded for every query; metrics, per family, the worst ten, and the runs.
-
-    Expanded is `merged_text(baseline, query_text, baseline_boost)`: with the default boost the
-    postings that match the seeker's words come first and the expansions fill in after them.
-    """
-    runs: dict[str, dict[str, dict[str, float]]] = {"baseline": {}, "expanded": {}}
-    rows = []
+    """Run every method for every judged query: means, per kind, per family, significance, and the runs."""
+    chosen = [m for m in (methods or METHODS) if m != "curated" or truth is not None]
+    curated = CuratedList(truth) if truth is not None else None
+    feedback = rm3 or RM3()
+    indexed = index.ids
+    names = [f"recall@{k}" for k in ks] + ["ndcg@10", "mrr", "exact_first"]
+    runs: dict[str, dict[str, dict[str, float]]] = {m: {} for m in chosen}
+    qrels: dict[str, dict[str, int]] = {}
+    rows: list[dict[str, Any]] = []
     for q in queries:
+        relevant = {d: g for d, g in q.relevant.items() if d in indexed}
+        if not any(g >= 1 for g in relevant.values()):
+            continue
+        qrels[q.id] = relevant
         result = expand(lexicon, decisions, q.query, options)
-        plain = baseline_text(result, options.operator)
-        base_hits = {h.id: h.score for h in index.search(plain, RUN_DEPTH)}
-        matches_original = index.matching(plain)
-        expanded_text = merged_text(plain, result.query_text, baseline_boost)
-        exp_hits = {h.id: h.score for h in index.search(expanded_text, RUN_DEPTH)}
-        runs["baseline"][q.id] = base_hits
-        runs["expanded"][q.id] = exp_hits
-        base_rank, exp_rank = trec_order(base_hits), trec_order(exp_hits)
-        # Exact first: every retrieved posting that matches the seeker's own words ranks above
-        # every posting that only an expansion brought in.
-        exact = [i for i, d in enumerate(exp_rank) if d in matches_original]
-        brought = [i for i, d in enumerate(exp_rank) if d not in matches_original]
-        exact_first = not exact or not brought or max(exact) < min(brought)
-        row: dict[str, Any] = {"id": q.id, "query": q.query, "family": q.family, "exact_first": exact_first}
-        for name, ranked in (("baseline", base_rank), ("expanded", exp_rank)):
-            metrics = {f"recall@{k}": recall_at(ranked, q.relevant, k) for k in ks}
-            metrics["ndcg@10"] = ndcg_at(ranked, q.relevant, 10)
-            metrics["mrr"] = reciprocal_rank(ranked, q.relevant)
-            row[name] = metrics
+        built, exact_text = method_queries(index, q.query, result, options, feedback, curated, chosen)
+        exact = index.matching(exact_text) if exact_text else set()
+        row: dict[str, Any] = {"id": q.id, "query": q.query, "family": q.family, "kind": q.kind, "base": q.base}
+        for method in chosen:
+            query = built.get(method)
+            hits = dict(index.run(query, RUN_DEPTH)) if query is not None else {}
+            runs[method][q.id] = hits
+            ranked = trec_order(hits)
+            scores = {f"recall@{k}": recall_at(ranked, relevant, k) for k in ks}
+            scores["ndcg@10"] = ndcg_at(ranked, relevant, 10)
+            scores["mrr"] = reciprocal_rank(ranked, relevant)
+            scores["exact_first"] = float(_exact_first(ranked, exact))
+            row[method] = scores
         row["recall_curve"] = {
-            name: [recall_at(r, q.relevant, k) for k in range(1, RUN_DEPTH + 1)]
-            for name, r in (("baseline", base_rank), ("expanded", exp_rank))
+            m: [recall_at(trec_order(runs[m][q.id]), relevant, k) for k in (10, 25, 50, 100)] for m in chosen
         }
         rows.append(row)
-    n = len(rows)
 
-    def mean(name: str, metric: str, subset: list[dict[str, Any]] | None = None) -> float:
-        chosen = rows if subset is None else subset
-        return round(sum(r[name][metric] for r in chosen) / len(chosen), 6) if chosen else 0.0
+    def summary(subset: Sequence[dict[str, Any]]) -> dict[str, dict[str, float]]:
+        return {m: {n: _mean([r[m][n] for r in subset]) for n in names} for m in chosen}
 
-    metric_names = [f"recall@{k}" for k in ks] + ["ndcg@10", "mrr"]
-    summary: dict[str, Any] = {}
-    for name in ("baseline", "expanded"):
-        summary[name] = {m: mean(name, m) for m in metric_names}
-    summary["baseline"]["exact_first"] = 1.0
-    summary["expanded"]["exact_first"] = round(sum(r["exact_first"] for r in rows) / n, 6)
+    by_id = {r["id"]: r for r in rows}
+    kinds: dict[str, Any] = {}
+    for kind in KINDS:
+        members = [r for r in rows if r["kind"] == kind]
+        if not members:
+            continue
+        entry: dict[str, Any] = {"queries": len(members), "methods": summary(members)}
+        paired = [(r, by_id[r["base"]]) for r in members if r["base"] in by_id]
+        if paired:
+            # The same queries without the noise words / spelled right / without the pattern, side by side.
+            entry["base_queries"] = len(paired)
+            entry["ratio_to_base"] = {
+                m: {
+                    n: round(_mean([a[m][n] for a, _ in paired]) / max(_mean([b[m][n] for _, b in paired]), 1e-9), 4)
+                    for n in ("recall@100", "ndcg@10")
+                }
+                for m in chosen
+            }
+        kinds[kind] = entry
+    significance = {
+        m: {
+            n: round(paired_randomisation([r[m][n] for r in rows], [r[BASELINE][n] for r in rows]), 5)
+            for n in ("ndcg@10", "recall@100")
+        }
+        for m in chosen
+        if m != BASELINE and BASELINE in chosen
+    }
     families: dict[str, list[dict[str, Any]]] = {}
     for r in rows:
         families.setdefault(r["family"], []).append(r)
-    per_family = {
-        f: {name: {m: mean(name, m, members) for m in metric_names} for name in ("baseline", "expanded")}
-        for f, members in sorted(families.items())
-    }
-    worst = sorted(rows, key=lambda r: r["expanded"]["ndcg@10"] - r["baseline"]["ndcg@10"])[:10]
-    curve = {
-        name: [round(sum(r["recall_curve"][name][k] for r in rows) / n, 6) for k in range(RUN_DEPTH)]
-        for name in ("baseline", "expanded")
-    }
+    compare = "widen" if "widen" in chosen else chosen[0]
+    against = BASELINE if BASELINE in chosen else chosen[0]
+    worst = sorted(rows, key=lambda r: r[compare]["ndcg@10"] - r[against]["ndcg@10"])[:10]
     return {
-        **summary,
-        "queries": n,
-        "baseline_boost": baseline_boost,
-        "per_family": per_family,
+        "methods": summary(rows),
+        "descriptions": {m: METHODS[m] for m in chosen},
+        "queries": len(rows),
+        "left_out": len(queries) - len(rows),
+        "index_postings": index.size,
+        "significance": {"against": BASELINE, "test": "paired randomisation, two-sided", "p": significance},
+        "kinds": kinds,
+        "per_family": {f: summary(members) for f, members in sorted(families.items())},
         "worst": [
             {
                 "id": r["id"],
                 "query": r["query"],
-                "ndcg@10": {
-                    "baseline": round(r["baseline"]["ndcg@10"], 6),
-                    "expanded": round(r["expanded"]["ndcg@10"], 6),
-                },
+                "ndcg@10": {against: r[against]["ndcg@10"], compare: r[compare]["ndcg@10"]},
             }
             for r in worst
         ],
-        "recall_curve": curve,
+        "recall_curve": {m: [_mean([r["recall_curve"][m][i] for r in rows]) for i in range(4)] for m in chosen},
         "_runs": runs,
-        "_qrels": {q.id: q.relevant for q in queries},
+        "_qrels": qrels,
         "_rows": rows,
     }

@@ -2,8 +2,9 @@
 
 For each family, the first equivalent title is expanded. Coverage: the share of the family's
 other equivalent titles found among the expansions. Precision: the share of expansions that
-are titles of the family or of a related family. Equivalent precision: of the expansions
-hinted `equivalent`, the share that really are the family's own titles.
+are titles of the family or of a related family. Same job: the share of expansions that are the
+family's own titles. Equivalent precision: of the expansions hinted `equivalent`, the share that
+really are the family's own titles.
 """
 
 from __future__ import annotations
@@ -22,7 +23,7 @@ __all__ = ["scorecard"]
 def scorecard(lexicon: Lexicon, truth: dict[str, Any], options: ExpansionOptions) -> dict[str, Any]:
     families = truth["families"]
     title_family = {phrase_of(t): f["name"] for f in families for t in f["equivalent"]}
-    found = wanted = good = offered = eq_right = eq_offered = rel_right = rel_offered = 0
+    found = wanted = good = same = offered = eq_right = eq_offered = rel_right = rel_offered = 0
     rows = []
     for family in families:
         own = [phrase_of(t) for t in family["equivalent"]]
@@ -38,6 +39,7 @@ def scorecard(lexicon: Lexicon, truth: dict[str, Any], options: ExpansionOptions
         wanted += len(own) - 1
         right = [p for p in phrases if p in own or p in related]
         good += len(right)
+        same += sum(p in own for p in phrases)
         offered += len(phrases)
         for e in expansions:
             if e.relation == "equivalent":
@@ -58,6 +60,7 @@ def scorecard(lexicon: Lexicon, truth: dict[str, Any], options: ExpansionOptions
     return {
         "coverage": found / wanted if wanted else 0.0,
         "precision": good / offered if offered else 0.0,
+        "same_job": same / offered if offered else 0.0,
         "equivalent_precision": eq_right / eq_offered if eq_offered else 0.0,
         "related_precision": rel_right / rel_offered if rel_offered else 0.0,
         "expansions": offered,

@@ -1,0 +1,111 @@
+"""The queries `widen evaluate` compares: what a search team already has, widen, and an upper bound.
+
+Each method is a query a front end could send to the same index, for the same seeker's text:
+
+- `all_required`: the seeker's segments as quoted phrases, every one required (widen's own
+  baseline before this evaluation compared against a real engine's default);
+- `bag_of_words`: the query's words as optional terms through the engine's analysis with
+  stemming: what a search engine does by default, the strongest plain baseline;
+- `rm3`: RM3 pseudo-relevance feedback on the bag of words (`widen.evaluation.rm3`), and
+  `rm3_merged`, merged the way widen is: `(all_required)^10 OR (rm3)`;
+- `widen`: the recommended merge, `(all_required)^10 OR (query_text)`; `widen_alone`, query_text
+  as it is; `bag_of_words_widen`, widen's clauses added to a front end's own bag of words,
+  `(bag_of_words)^10 OR (query_text)`;
+- `curated`: a perfect hand-kept list of each job's equivalent titles (the board's truth) in
+  place of widen's neighbours, merged the same way: an upper bound for a synonym list.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from typing import Any
+
+import tantivy
+
+from widen.evaluation.index import SearchIndex
+from widen.evaluation.rm3 import RM3
+from widen.options import ExpansionOptions
+from widen.query_text import BASELINE_BOOST, baseline_text, merged_text, render
+from widen.result import Clause, ExpansionResult
+from widen.text import phrase_of, tokens
+
+__all__ = ["METHODS", "CuratedList", "bag_of_words_text", "method_queries"]
+
+#: Every method, in the order of the report's tables, with what it is in words.
+METHODS: dict[str, str] = {
+    "all_required": "the seeker's segments as quoted phrases, all required (AND)",
+    "bag_of_words": "plain bag of words: the query's words as optional terms, stemmed (the engine's default)",
+    "rm3": "RM3 pseudo-relevance feedback on the bag of words",
+    "rm3_merged": "(all required)^10 OR (RM3)",
+    "widen": "widen, the recommended merge: (all required)^10 OR (query_text)",
+    "widen_alone": "widen's query_text alone",
+    "bag_of_words_widen": "(bag of words)^10 OR (query_text): widen added to a front end's own query",
+    "curated": "a perfect hand-kept list of each job's titles, merged like widen (upper bound)",
+}
+
+
+def bag_of_words_text(query: str) -> str:
+    """The query's words as optional terms (the parser's default is OR), each quoted so no input is syntax."""
+    return " ".join(f'"{t}"' for t in tokens(query) if '"' not in t and "\\" not in t)
+
+
+class CuratedList:
+    """A hand-kept synonym list: every equivalent title of a job lists the job's other titles.
+    Parameters: `truth`, the board's truth ({"families": [{"equivalent": [...]}, ...]})."""
+
+    def __init__(self, truth: dict[str, Any], weight: float = 0.5) -> None:
+        self.weight = weight
+        self.synonyms: dict[str, list[str]] = {}
+        for family in truth["families"]:
+            titles = [phrase_of(t) for t in family["equivalent"]]
+            for title in titles:
+                self.synonyms.setdefault(title, []).extend(t for t in titles if t != title)
+
+    def query_text(self, result: ExpansionResult, operator: str) -> str:
+        """widen's query text with each segment's neighbours replaced by the list's titles for it."""
+        clauses: list[Clause] = []
+        for s, segment in enumerate(result.segments):
+            clauses.append(Clause(phrase=segment.text, weight=1.0, original=True, segment=s))
+            clauses += [
+                Clause(phrase=other, weight=self.weight, original=False, segment=s)
+                for other in self.synonyms.get(segment.text, [])
+            ]
+        return render(clauses, len(result.segments), operator)
+
+
+def _merged(index: SearchIndex, first: tantivy.Query | None, then: tantivy.Query | None) -> tantivy.Query | None:
+    """`(first)^10 OR (then)` for query objects."""
+    parts = [(tantivy.Occur.Should, q) for q in (first and tantivy.Query.boost_query(first, BASELINE_BOOST), then) if q]
+    return tantivy.Query.boolean_query(parts) if parts else None
+
+
+def method_queries(
+    index: SearchIndex,
+    query: str,
+    result: ExpansionResult,
+    options: ExpansionOptions,
+    rm3: RM3,
+    curated: CuratedList | None,
+    methods: Sequence[str] = tuple(METHODS),
+) -> tuple[dict[str, tantivy.Query | None], str]:
+    """The query of every method for one seeker's text, and the all-required text (the exact match)."""
+
+    def parse(text: str) -> tantivy.Query | None:
+        return index.parse(text) if text.strip() else None
+
+    exact = baseline_text(result, "AND")
+    bow = bag_of_words_text(query)
+    built: dict[str, tantivy.Query | None] = {
+        "all_required": parse(exact),
+        "bag_of_words": parse(bow),
+        "widen": parse(merged_text(exact, result.query_text)),
+        "widen_alone": parse(result.query_text),
+        "bag_of_words_widen": parse(merged_text(bow, result.query_text)),
+    }
+    if "rm3" in methods or "rm3_merged" in methods:
+        plain = built["bag_of_words"]
+        built["rm3"] = rm3.query(index, plain, bow) if plain is not None else None
+        built["rm3_merged"] = _merged(index, built["all_required"], built["rm3"])
+    if curated is not None and "curated" in methods:
+        built["curated"] = parse(merged_text(exact, curated.query_text(result, options.operator)))
+    return {m: built.get(m) for m in methods if m in built}, exact
