@@ -34,6 +34,12 @@ class RequestOptions(BaseModel):
     explain: bool = False
     original_boost: float | None = Field(default=None, gt=0.0, le=100.0)
     operator: Literal["AND", "OR"] | None = None
+    places: Literal["text", "field"] | None = Field(
+        default=None, description="a place or employer in the free text, or in its own field of the index"
+    )
+    match: Literal["job", "all"] | None = Field(
+        default=None, description="job: only the job is required; all: every segment but noise words"
+    )
 
 
 class ExpandRequest(RequestOptions):

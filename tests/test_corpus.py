@@ -82,7 +82,7 @@ def test_reader_is_reiterable_and_title_comes_first(tmp_path: Path) -> None:
     second = list(corpus)
     assert first == second and len(first) == 2
     assert first[0].texts[0] == "Staff Nurse"
-    assert first[0].protected == ("Hensby",)
+    assert first[0].protected == (("location", "Hensby"),)  # the field it came from, and the name as written
 
 
 def test_bad_input_above_threshold_exits_2_and_publishes_nothing(

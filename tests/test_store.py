@@ -25,8 +25,9 @@ from widen.evaluation.runs import evaluate, read_queries
 from widen.lexicon import Lexicon
 from widen.store import Store
 
-# A model that cannot have learned anything: one epoch at a learning rate near zero.
-BROKEN = {"embedding.epochs": 1, "embedding.alpha": 1e-6, "embedding.seed": 99}
+# A model that cannot have learned anything: one epoch at a learning rate near zero, and no duties
+# (a title's duties are counted from the corpus, so they would still find its other names).
+BROKEN = {"embedding.epochs": 1, "embedding.alpha": 1e-6, "embedding.seed": 99, "duties.min_postings": 10**9}
 
 
 def test_bundle_manifest_describes_the_bundle(trained_store: Path) -> None:
@@ -262,6 +263,8 @@ def test_print_config_writes_every_default_and_reads_back(tmp_path: Path, capsys
 
 def test_gate_on_search_impact_compares_with_the_serving_bundle(store_copy: Path, demo_dir: Path) -> None:
     impact = {"gate.queries": str(demo_dir / "queries.jsonl"), "gate.postings": str(demo_dir / "open_postings.jsonl")}
+    # Another seed moves a near pair or two of the pair gate, which is not what this test is about.
+    impact["gate.tolerance"] = 0.05  # type: ignore[assignment]
     outcome = train_quietly(
         demo_dir / "postings.jsonl", store_copy, demo_config(demo_dir, **impact, **{"embedding.seed": 3})
     )
@@ -283,15 +286,15 @@ def test_gate_on_search_impact_compares_with_the_serving_bundle(store_copy: Path
 
 
 def test_gate_refuses_a_slightly_worse_model(tmp_path: Path, demo_dir: Path) -> None:
-    # One worker thread, so both trainings are repeatable: the serving model scores 0.800 on the demo
-    # pairs, the candidate trained for one epoch instead of five 0.733. It learned (it is above the
-    # floor of 0.5), it is only worse, and the gate keeps the better model serving.
+    # One worker thread, so both trainings are repeatable. The serving model scores 0.989 on the demo
+    # pairs; the candidate learns no title phrases (title_min_count beyond any title), so three-word
+    # titles ("class 1 driver") are no entries of its own: 0.800. It learned, it is above the floor of
+    # 0.5, it is only worse, and the gate keeps the better model serving.
     base = {"embedding.workers": 1, "corpus.workers": 1}
     serving = train_quietly(demo_dir / "postings.jsonl", tmp_path, demo_config(demo_dir, **base))
     assert serving.promoted and serving.gate.score is not None
-    worse = train_quietly(
-        demo_dir / "postings.jsonl", tmp_path, demo_config(demo_dir, **base, **{"embedding.epochs": 1})
-    )
+    worse_config = demo_config(demo_dir, **base, **{"phrases.title_min_count": 10**9})
+    worse = train_quietly(demo_dir / "postings.jsonl", tmp_path, worse_config)
     assert worse.gate.score is not None and 0.5 < worse.gate.score < serving.gate.score - 0.02
     assert not worse.promoted and worse.exit_code == EXIT_REFUSED
     assert [r for r in worse.gate.reasons if "below the serving bundle" in r] == worse.gate.reasons

@@ -50,6 +50,10 @@ class PhrasesSection(_Section):
     max_words: int = Field(default=3, ge=1, le=6)
     scoring: Scoring = "npmi"
     connector_words: list[str] = CONNECTOR_WORDS
+    # A title core (the job a title field names, decorations taken out) named by at least this many
+    # postings becomes one vocabulary entry, up to `title_max_words` words, whatever the passes did.
+    title_min_count: int = Field(default=10, ge=1)
+    title_max_words: int = Field(default=4, ge=2, le=8)
 
     @field_validator("scoring", mode="before")
     @classmethod
@@ -83,6 +87,15 @@ class NeighboursSection(_Section):
     block_rows: int = Field(default=2048, ge=1)
 
 
+class DutiesSection(_Section):
+    """The duties a title comes with: what the descriptions of the postings with that title say."""
+
+    # A title named by fewer postings gets no duties profile (too few to say what the job is).
+    min_postings: int = Field(default=5, ge=2)
+    top_k: int = Field(default=50, ge=1, le=1000)
+    block_rows: int = Field(default=1024, ge=1)
+
+
 class GateSection(_Section):
     pairs: str = ""
     # Search impact (optional): labelled queries run on a tantivy index of `postings` (default:
@@ -106,6 +119,7 @@ class TrainConfig(_Section):
     phrases: PhrasesSection = PhrasesSection()
     embedding: EmbeddingSection = EmbeddingSection()
     neighbours: NeighboursSection = NeighboursSection()
+    duties: DutiesSection = DutiesSection()
     gate: GateSection = GateSection()
     store: StoreSection = StoreSection()
     expansion: ExpansionOptions = ExpansionOptions()

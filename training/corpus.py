@@ -34,11 +34,12 @@ _EXAMPLES = 10
 
 @dataclass(frozen=True)
 class Posting:
-    """One usable posting: its id, the text fields to learn from (title first), and protected values."""
+    """One usable posting: its id, the text fields to learn from (title first), and its protected
+    values (place, employer) as (field, value) pairs."""
 
     id: str
     texts: tuple[str, ...]
-    protected: tuple[str, ...]
+    protected: tuple[tuple[str, str], ...]
     line: int
 
 
@@ -129,7 +130,9 @@ class PostingCorpus:
             stats.skip("empty_text", line)
             return None
         protected = tuple(
-            v for v in (record.get(name) for name in self.config.protected_fields) if isinstance(v, str) and v.strip()
+            (name, value.strip())
+            for name, value in ((n, record.get(n)) for n in self.config.protected_fields)
+            if isinstance(value, str) and value.strip()
         )
         return Posting(record["id"], tuple(texts), protected, line)
 

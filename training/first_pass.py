@@ -2,15 +2,16 @@
 
 What it reads goes to a scratch file of sentences, one a line, `M<TAB>tokens`: M is T for a
 title, D for other text, and lower case (t, d) when the sentence continues the block (paragraph,
-list item) of the line before. Every later pass streams from it; memory follows the vocabulary,
-not the number of postings. Phrase passes work sentence by sentence; skip-gram sees a block.
+list item) of the line before; an empty `P` line starts each posting. Every later pass streams
+from it; memory follows the vocabulary, not the number of postings. Phrase passes work sentence by
+sentence; skip-gram sees a block; the duties of a title are counted posting by posting.
 """
 
 from __future__ import annotations
 
 import hashlib
 import multiprocessing
-from collections import deque
+from collections import Counter, deque
 from collections.abc import Iterator
 from dataclasses import dataclass
 from multiprocessing.pool import AsyncResult
@@ -19,6 +20,7 @@ from typing import IO
 
 from training.corpus import Posting, PostingCorpus
 from training.progress import Progress
+from training.titles import title_cores
 from widen.phrases import Phraser
 from widen.text import blocks, key_of_text
 
@@ -61,14 +63,23 @@ class _Tokenised:
     key: bytes
     tokens: int
     lines: str
-    protected: tuple[str, ...]
+    protected: tuple[tuple[str, str, str], ...]  # (key, field, value as written)
+    cores: tuple[str, ...]
 
 
-def _tokenise_batch(batch: list[Posting], has_title: bool) -> list[_Tokenised]:
+@dataclass(frozen=True)
+class _TitleRule:
+    """What a title core leaves out, sent to the workers."""
+
+    drop: frozenset[str]
+    longest: int
+
+
+def _tokenise_batch(batch: list[Posting], has_title: bool, rule: _TitleRule) -> list[_Tokenised]:
     """Runs in a worker process; returns plain strings, which cross processes cheaply."""
     out = []
     for posting in batch:
-        rows: list[str] = []
+        rows: list[str] = ["P\t\n"]
         flat: list[str] = []
         for number, text in enumerate(posting.texts):
             mark = "T" if number == 0 and has_title else "D"
@@ -77,8 +88,12 @@ def _tokenise_batch(batch: list[Posting], has_title: bool) -> list[_Tokenised]:
                     rows.append(f"{mark if position == 0 else mark.lower()}\t{' '.join(sent)}\n")
                     flat.extend(sent)
         key = hashlib.blake2b("\x1f".join(flat).encode("utf-8"), digest_size=12).digest()
-        protected = tuple(j for j in (key_of_text(v) for v in posting.protected) if j)
-        out.append(_Tokenised(posting.line, key, len(flat), "".join(rows), protected))
+        protected = tuple((k, f, v) for f, v in posting.protected if (k := key_of_text(v)))
+        cores: tuple[str, ...] = ()
+        if has_title and posting.texts:
+            own = [v for _, v in posting.protected]
+            cores = tuple(title_cores(posting.texts[0], rule.drop, own, rule.longest))
+        out.append(_Tokenised(posting.line, key, len(flat), "".join(rows), protected, cores))
     return out
 
 
@@ -101,16 +116,22 @@ class FirstPass:
     Phrases) counts the batch before.
     """
 
-    def __init__(self, corpus: PostingCorpus, scratch: Path, workers: int, out: IO[str]) -> None:
+    def __init__(
+        self, corpus: PostingCorpus, scratch: Path, workers: int, out: IO[str], drop: frozenset[str], longest: int
+    ) -> None:
         self.corpus, self.scratch, self.workers, self.out = corpus, scratch, workers, out
         self.used = self.duplicates = self.tokens = 0
-        self.protected: set[str] = set()
+        #: Every protected name: its key, with the field it came from and how the dump writes it.
+        self.protected: dict[str, tuple[str, str]] = {}
+        #: How many postings name each title core.
+        self.cores: Counter[str] = Counter()
         self.has_title = bool(corpus.config.fields) and corpus.config.fields[0] == "title"
+        self.rule = _TitleRule(drop, longest)
 
     def _tokenised(self) -> Iterator[_Tokenised]:
         if self.workers <= 1:
             for batch in _batched(self.corpus):
-                yield from _tokenise_batch(batch, self.has_title)
+                yield from _tokenise_batch(batch, self.has_title, self.rule)
             return
         # Submit a bounded number of batches ahead (Pool.imap would read the whole dump ahead
         # of a slow consumer and hold it in memory).
@@ -118,7 +139,7 @@ class FirstPass:
         with multiprocessing.get_context("fork").Pool(self.workers) as pool:
             pending: deque[AsyncResult[list[_Tokenised]]] = deque()
             for batch in _batched(self.corpus):
-                pending.append(pool.apply_async(_tokenise_batch, (batch, self.has_title)))
+                pending.append(pool.apply_async(_tokenise_batch, (batch, self.has_title, self.rule)))
                 if len(pending) >= ahead:
                     yield from pending.popleft().get()
             while pending:
@@ -144,5 +165,7 @@ class FirstPass:
                 fh.write(done.lines)
                 for row in done.lines.splitlines():
                     yield row[2:].split()
-                if len(self.protected) < MAX_PROTECTED:
-                    self.protected.update(done.protected)
+                for key, field, value in done.protected:
+                    if key not in self.protected and len(self.protected) < MAX_PROTECTED:
+                        self.protected[key] = (field, value)
+                self.cores.update(set(done.cores))

@@ -1,8 +1,9 @@
 """The promotion gate: is a candidate model at least as good as the one serving now?
 
 A pairs file lists phrase pairs a reviewer knows: `near` pairs (another name for the
-same job) should sit in each other's top k above a similarity floor; `far` pairs
-(different jobs, including the polysemy traps) should not. The score is the share of
+same job) should be each other's neighbours as the bundle serves them (in the skip-gram top k
+above a similarity floor, or titles posted with duties alike enough to be the same job); `far`
+pairs (different jobs, including the polysemy traps) should not. The score is the share of
 pair checks that hold. A candidate is refused when it scores below an absolute floor
 or more than a tolerance below the serving bundle on the same pairs.
 """
@@ -27,7 +28,7 @@ from widen.evaluation.runs import evaluate, read_queries
 from widen.lexicon import Lexicon
 from widen.text import key_of_text
 
-__all__ = ["Pair", "read_pairs", "score_pairs", "search_impact", "GateResult", "decide"]
+__all__ = ["Pair", "Tables", "read_pairs", "score_pairs", "search_impact", "GateResult", "decide"]
 
 
 @dataclass(frozen=True)
@@ -58,39 +59,65 @@ def read_pairs(path: Path) -> list[Pair]:
     return pairs
 
 
-def _within(
-    index: Mapping[str, int],
-    nbr_idx: npt.NDArray[np.int32],
-    nbr_sim: npt.NDArray[np.float32],
-    a: str,
-    b: str,
-    top_k: int,
-    floor: float,
-) -> bool:
-    ia, ib = index.get(key_of_text(a)), index.get(key_of_text(b))
+@dataclass(frozen=True)
+class Tables:
+    """What a bundle serves as neighbours: the skip-gram table, and the duties table with the cosine at
+    which two titles count as the same job (`equivalent`, the bundle's split-half cosine times the
+    served option `equivalent_duties`); `duty_rows` is None for a bundle without duties."""
+
+    index: Mapping[str, int]
+    neighbour_index: npt.NDArray[np.int32]
+    neighbour_similarity: npt.NDArray[np.float32]
+    duty_rows: npt.NDArray[np.int32] | None = None
+    duty_index: npt.NDArray[np.int32] | None = None
+    duty_similarity: npt.NDArray[np.float32] | None = None
+    equivalent: float | None = None
+
+    @classmethod
+    def of(cls, bundle: Bundle) -> Tables:
+        split = (bundle.manifest.get("duties") or {}).get("split_half")
+        threshold = bundle.options.equivalent_duties * split if split else None
+        return cls(
+            bundle.index,
+            bundle.neighbour_index,
+            bundle.neighbour_similarity,
+            bundle.duty_rows,
+            bundle.duty_index,
+            bundle.duty_similarity,
+            threshold,
+        )
+
+
+def _within(tables: Tables, a: str, b: str, top_k: int, floor: float) -> bool:
+    """b is a's neighbour as served: in a's skip-gram top k above the floor, or a title posted with
+    duties alike enough to count as the same job."""
+    ia, ib = tables.index.get(key_of_text(a)), tables.index.get(key_of_text(b))
     if ia is None or ib is None:
         return False
-    row = nbr_idx[ia, :top_k]
+    row = tables.neighbour_index[ia, :top_k]
     hits = np.nonzero(row == ib)[0]
-    return bool(hits.size) and float(nbr_sim[ia, hits[0]]) >= floor
+    if hits.size and float(tables.neighbour_similarity[ia, hits[0]]) >= floor:
+        return True
+    rows, threshold = tables.duty_rows, tables.equivalent
+    if rows is None or threshold is None or tables.duty_index is None or tables.duty_similarity is None:
+        return False
+    if rows[ia] < 0:
+        return False
+    r = int(rows[ia])
+    found = np.nonzero(tables.duty_index[r] == ib)[0]
+    return bool(found.size) and float(tables.duty_similarity[r, found[0]]) >= threshold
 
 
-def score_pairs(
-    index: Mapping[str, int],
-    nbr_idx: npt.NDArray[np.int32],
-    nbr_sim: npt.NDArray[np.float32],
-    pairs: list[Pair],
-    config: GateSection,
-) -> dict[str, Any]:
-    """Score a neighbour table on the pairs; each pair is checked in both directions."""
+def score_pairs(tables: Tables, pairs: list[Pair], config: GateSection) -> dict[str, Any]:
+    """Score what a bundle serves on the pairs; each pair is checked in both directions."""
     checks = near_ok = near_n = far_ok = far_n = 0
     failed: list[dict[str, str]] = []
     missing: list[str] = []
     for pair in pairs:
         for x, y in ((pair.a, pair.b), (pair.b, pair.a)):
-            if key_of_text(x) not in index and x not in missing:
+            if key_of_text(x) not in tables.index and x not in missing:
                 missing.append(x)
-            hit = _within(index, nbr_idx, nbr_sim, x, y, config.top_k, config.min_similarity)
+            hit = _within(tables, x, y, config.top_k, config.min_similarity)
             checks += 1
             if pair.near:
                 near_n += 1

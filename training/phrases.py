@@ -10,7 +10,7 @@ longer than `max_words` is never formed.
 
 from __future__ import annotations
 
-from collections.abc import Callable, Iterable
+from collections.abc import Callable, Collection, Iterable
 
 from gensim.models.phrases import FrozenPhrases, Phrases
 
@@ -18,7 +18,35 @@ from training.config import PhrasesSection
 from widen.phrases import Phraser, PhraseRow
 from widen.text import PHRASE_JOINER, words_in
 
-__all__ = ["learn_phrases"]
+__all__ = ["learn_phrases", "phrase_filter"]
+
+
+class phrase_filter:
+    """Which mined phrases to keep: none that joins a place or employer name (`protected`, keys, read
+    when first asked, after the first pass), or a word that must stay `apart` (shift patterns, noise
+    words), to other words ("sous chef orrinsby", "retail assistant f/t"). A name or a pattern of
+    several words ("fennick cross", "part time", "night shift") is kept whole."""
+
+    def __init__(self, protected: Callable[[], Collection[str]], apart: frozenset[str]) -> None:
+        self._protected, self.apart = protected, apart
+        self._keys: frozenset[str] | None = None
+        self._lengths: tuple[int, ...] = ()
+
+    def __call__(self, phrase: str) -> bool:
+        if self._keys is None:
+            self._keys = frozenset(self._protected())
+            self._lengths = tuple(sorted({len(k.split(PHRASE_JOINER)) for k in self._keys}))
+        words = phrase.split(PHRASE_JOINER)
+        if phrase in self._keys:
+            return True
+        if any(w in self.apart for w in words) and not all(w in self.apart for w in words):
+            return False
+        for n in self._lengths:
+            if n < len(words):
+                spans = (PHRASE_JOINER.join(words[i : i + n]) for i in range(len(words) - n + 1))
+                if any(span in self._keys for span in spans):
+                    return False
+        return True
 
 
 def learn_phrases(
@@ -26,12 +54,14 @@ def learn_phrases(
     again: Callable[[Phraser], Iterable[list[str]]],
     config: PhrasesSection,
     on_pass: Callable[[int], None] | None = None,
+    keep: Callable[[str], bool] | None = None,
 ) -> tuple[Phraser, list[PhraseRow]]:
     """Learn `max_words - 1` passes: the first over `first`, pass k over `again(pass k-1)`.
 
     `first` may be the stream that reads and tokenises the corpus, so pass one costs no extra
     read; `again(newest)` must stream the corpus as phrased so far with `newest` applied on top,
-    so every pass is applied once, as when phrasing by hand.
+    so every pass is applied once, as when phrasing by hand. `keep`, when given, decides which mined
+    phrases of each pass are kept (see `phrase_filter`).
     """
     passes: list[FrozenPhrases] = []
     table: list[PhraseRow] = []
@@ -47,7 +77,9 @@ def learn_phrases(
             progress_per=10**12,
         )
         frozen = model.freeze()
-        kept = {p: s for p, s in frozen.phrasegrams.items() if words_in(p) <= config.max_words}
+        kept = {
+            p: s for p, s in frozen.phrasegrams.items() if words_in(p) <= config.max_words and (keep is None or keep(p))
+        }
         frozen.phrasegrams = kept
         for phrase in sorted(kept):
             table.append(PhraseRow(phrase, float(kept[phrase]), int(model.vocab.get(phrase, 0)), number))

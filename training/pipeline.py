@@ -23,9 +23,10 @@ import numpy as np
 
 from training.config import TrainConfig
 from training.corpus import PostingCorpus
+from training.duties import duty_table
 from training.first_pass import FirstPass, Scratch
-from training.gate import GateResult, decide, read_pairs, score_pairs, search_impact
-from training.phrases import learn_phrases
+from training.gate import GateResult, Tables, decide, read_pairs, score_pairs, search_impact
+from training.phrases import learn_phrases, phrase_filter
 from training.progress import Progress
 from training.skipgram import fit_skipgram, structure_problems
 from widen.bundle import Bundle, BundleWriter, sha256_file
@@ -36,7 +37,7 @@ from widen.evaluation.runs import read_queries
 from widen.neighbours import normalise_rows, top_k_table
 from widen.phrases import Phraser
 from widen.store import Store
-from widen.text import PHRASE_JOINER, in_windows
+from widen.text import PHRASE_JOINER, in_windows, is_number
 
 __all__ = ["TrainOutcome", "train", "summary"]
 
@@ -70,27 +71,49 @@ def _check_bad_fraction(corpus: PostingCorpus, used: int, config: TrainConfig) -
         )
 
 
-def _final_pass(phraser: Phraser, scratch: Scratch, phrased: Path) -> tuple[Counter[str], Counter[str]]:
-    """Apply the last phrase pass and write one line a block for skip-gram, whose windows then span
-    the sentences of a paragraph or list item (numbers and lone letters left out). Returns the count
-    of every entry written, and of the entries used in titles."""
+def _final_pass(phraser: Phraser, scratch: Scratch, phrased: Path, postings: Path) -> tuple[Counter[str], Counter[str]]:
+    """Apply the last phrase pass and the title pass; write one line a block for skip-gram, whose
+    windows then span the sentences of a paragraph or list item (numbers and lone letters left out),
+    and one line a posting of its title entries and description entries, for the duties. Returns the
+    count of every entry written for skip-gram, and of the entries used in titles."""
     counts: Counter[str] = Counter()
     in_titles: Counter[str] = Counter()
-    last = Phraser(phraser.passes[-1:]) if scratch.generation < len(phraser.passes) else Phraser([])
+    passes = phraser.passes[-1:] if scratch.generation < len(phraser.passes) else []
+    last = Phraser(passes, phraser.titles)
     block: list[str] = []
-    with scratch.path.open(encoding="utf-8") as src, phrased.open("w", encoding="utf-8") as dst:
+    title: list[str] = []
+    said: list[str] = []
+
+    def posting_done() -> None:
+        if title or said:
+            out.write(" ".join(title) + "\t" + " ".join(said) + "\n")
+        title.clear()
+        said.clear()
+
+    with (
+        scratch.path.open(encoding="utf-8") as src,
+        phrased.open("w", encoding="utf-8") as dst,
+        postings.open("w", encoding="utf-8") as out,
+    ):
         for line in src:
             entries = last(line[2:].split())
-            if line[0] in "TD" and block:  # a new block starts: the one before is complete
+            if line[0] in "TDP" and block:  # a new block starts: the one before is complete
                 dst.write(" ".join(block) + "\n")
                 block = []
+            if line[0] == "P":
+                posting_done()
+                continue
+            kept = [e for e in entries if in_windows(e)]
             if line[0] in "Tt":
                 in_titles.update(entries)
-            kept = [e for e in entries if in_windows(e)]
+                title.extend(kept)
+            else:
+                said.extend(kept)
             counts.update(kept)
             block.extend(kept)
         if block:
             dst.write(" ".join(block) + "\n")
+        posting_done()
     return counts, in_titles
 
 
@@ -129,6 +152,19 @@ def _keep_words(phrased: Path, counts: Counter[str], min_count: int) -> int:
             dst.write(" ".join(out) + "\n")
     rewritten.replace(phrased)
     return split
+
+
+def _fragments(in_titles: Counter[str], share: float = 0.2) -> set[str]:
+    """Title entries that are mostly a piece of longer titles ("pot" of "pot washer", "nurse" of "staff
+    nurse"): seen alone in fewer titles than `share` of the titles that hold them inside a longer one.
+    Alone, such a piece is a typo's leftover or a shorthand, not a title with duties of its own."""
+    spans: Counter[str] = Counter()
+    for entry, n in in_titles.items():
+        words = entry.split(PHRASE_JOINER)
+        for size in range(1, len(words)):
+            for i in range(len(words) - size + 1):
+                spans[PHRASE_JOINER.join(words[i : i + size])] += n
+    return {e for e, inside in spans.items() if e in in_titles and in_titles[e] < share * inside}
 
 
 def _serving_bundle(store: Store) -> Bundle | None:
@@ -187,18 +223,44 @@ def train(
 
             corpus = PostingCorpus(corpus_path, config.corpus)
             t = time.monotonic()
-            first = FirstPass(corpus, scratch.path, config.corpus.workers, out)
+            apart = config.expansion.not_inside_phrases()
+            # A title core leaves out what decorates a title: patterns, noise words, and modifiers too
+            # ("trainee staff nurse" names a staff nurse; mining still forms "senior carer" on its own).
+            decoration = apart | frozenset(config.expansion.modifiers)
+            first = FirstPass(
+                corpus, scratch.path, config.corpus.workers, out, decoration, config.phrases.title_max_words
+            )
+            keep = phrase_filter(lambda: first.protected.keys(), apart)
             passes = max(config.phrases.max_words - 1, 0)
             with Progress("phrase passes", total=passes, unit="passes", stream=out, every=0) as bar:
-                phraser, table = learn_phrases(first, scratch.through, config.phrases, lambda n: bar.update())
+                mined, table = learn_phrases(first, scratch.through, config.phrases, lambda n: bar.update(), keep)
                 _check_bad_fraction(corpus, first.used, config)
-                counts, in_titles = _final_pass(phraser, scratch, phrased)
+                titles = {c for c, n in first.cores.items() if n >= config.phrases.title_min_count and keep(c)}
+                phraser = Phraser(mined.passes, titles)
+                counts, in_titles = _final_pass(phraser, scratch, phrased, scratch_dir / "postings.txt")
                 _keep_words(phrased, counts, config.embedding.min_count)
             seconds["read, tokenise and phrases"] = time.monotonic() - t
 
             t = time.monotonic()
             model = fit_skipgram(phrased, config, out)
             seconds["skip-gram"] = time.monotonic() - t
+
+            t = time.monotonic()
+            protected = first.protected
+
+            fragments = _fragments(in_titles)
+
+            def is_title(entry: str) -> bool:
+                words = entry.split(PHRASE_JOINER)
+                return (
+                    entry not in protected
+                    and entry not in fragments
+                    and not all(w in decoration for w in words)
+                    and not any(map(is_number, words))
+                )
+
+            duties = duty_table(scratch_dir / "postings.txt", model.wv.key_to_index, is_title, config.duties)
+            seconds["duties"] = time.monotonic() - t
             shutil.rmtree(scratch_dir)  # the scratch corpus is not part of the bundle
 
             t = time.monotonic()
@@ -208,6 +270,7 @@ def train(
             writer.entry_stats([[wv.get_vecattr(k, "count"), in_titles.get(k, 0)] for k in wv.index_to_key])
             writer.phrases(phraser, table)
             writer.protected(config.corpus.protected_fields, first.protected)
+            writer.duties(duties.rows, duties.index, duties.similarity)
             seconds["save"] = time.monotonic() - t
 
             t = time.monotonic()
@@ -235,12 +298,24 @@ def train(
                 "config": config.model_dump(),
                 "vocabulary_size": len(wv),
                 "phrase_count": len(table),
+                "title_phrases": len(titles),
                 "protected_count": len(first.protected),
+                "duties": duties.stats,
             }
-            candidate_score = score_pairs(wv.key_to_index, nbr_idx, nbr_sim, pairs, config.gate) if pairs else None
+            split = duties.stats.get("split_half")
+            candidate_tables = Tables(
+                wv.key_to_index,
+                nbr_idx,
+                nbr_sim,
+                duties.rows,
+                duties.index,
+                duties.similarity,
+                config.expansion.equivalent_duties * split if split else None,
+            )
+            candidate_score = score_pairs(candidate_tables, pairs, config.gate) if pairs else None
             serving = _serving_bundle(store) if pairs or config.gate.queries else None
             current_score = (
-                score_pairs(serving.index, serving.neighbour_index, serving.neighbour_similarity, pairs, config.gate)
+                score_pairs(Tables.of(serving), pairs, config.gate)
                 if pairs is not None and serving is not None
                 else None
             )

@@ -9,7 +9,8 @@ bundles/VERSION/       one published bundle, never changed after publication
   entry_stats.npy      per entry: corpus count, count in titles
   phrases.json         the phrase passes, to segment queries as the corpus was segmented
   phrase_table.tsv     mined phrases with score and count, for review
-  protected.json       place and employer names that are never expanded nor offered
+  protected.json       place and employer names (with their field and spelling), never expanded nor offered
+  duty_rows.npy / duty_index.npy / duty_similarity.npy   titles with the most alike duties (optional)
 
 The store around the bundles (CURRENT, the journal, decisions, search indexes) is `widen.store`.
 """
@@ -18,7 +19,7 @@ from __future__ import annotations
 
 import hashlib
 import json
-from collections.abc import Iterable
+from collections.abc import Iterable, Mapping
 from pathlib import Path
 from typing import Any
 
@@ -45,6 +46,9 @@ ENTRY_STATS = "entry_stats.npy"
 PHRASES = "phrases.json"
 PHRASE_TABLE = "phrase_table.tsv"
 PROTECTED = "protected.json"
+DUTY_ROWS = "duty_rows.npy"
+DUTY_INDEX = "duty_index.npy"
+DUTY_SIMILARITY = "duty_similarity.npy"
 REQUIRED = (VECTORS, NORMED_VECTORS, OUTPUT_VECTORS, NEIGHBOURS_INDEX, NEIGHBOURS_SIMILARITY, PHRASES, PROTECTED)
 
 
@@ -121,9 +125,16 @@ class BundleWriter:
             for row in sorted(table, key=lambda r: (-r.count, r.phrase)):
                 fh.write(f"{display(row.phrase)}\t{row.score:.6f}\t{row.count}\t{row.pass_number}\n")
 
-    def protected(self, fields: list[str], entries: Iterable[str]) -> None:
-        data = {"fields": fields, "entries": sorted(entries)}
+    def protected(self, fields: list[str], names: Mapping[str, tuple[str, str]]) -> None:
+        """Place and employer names: key -> (the dump's field, the name as the dump writes it)."""
+        data = {"fields": fields, "entries": sorted(names), "names": {k: list(v) for k, v in sorted(names.items())}}
         (self.folder / PROTECTED).write_text(json.dumps(data) + "\n", encoding="utf-8")
+
+    def duties(self, rows: npt.ArrayLike, index: npt.ArrayLike, similarity: npt.ArrayLike) -> None:
+        """Per entry its row of the duties table (-1: none); per row the titles with the most alike duties."""
+        np.save(self.folder / DUTY_ROWS, np.asarray(rows, dtype=np.int32))
+        np.save(self.folder / DUTY_INDEX, np.asarray(index, dtype=np.int32))
+        np.save(self.folder / DUTY_SIMILARITY, np.asarray(similarity, dtype=np.float32))
 
     def draft(self, fields: dict[str, Any]) -> dict[str, Any]:
         """The manifest as it would be, without the file list; nothing is written."""
@@ -169,9 +180,17 @@ class Bundle:
             )
             self.entry_stats: npt.NDArray[np.int64] = np.load(self.folder / ENTRY_STATS, mmap_mode="r")
             self.phraser = Phraser.from_json(json.loads((self.folder / PHRASES).read_text(encoding="utf-8")))
-            self.protected: frozenset[str] = frozenset(
-                json.loads((self.folder / PROTECTED).read_text(encoding="utf-8"))["entries"]
-            )
+            names = json.loads((self.folder / PROTECTED).read_text(encoding="utf-8"))
+            self.protected: frozenset[str] = frozenset(names["entries"])
+            #: key -> (field, the name as the dump writes it); empty for bundles of the first format.
+            self.names: dict[str, tuple[str, str]] = {k: (v[0], v[1]) for k, v in names.get("names", {}).items()}
+            self.duty_rows: npt.NDArray[np.int32] | None = None
+            self.duty_index: npt.NDArray[np.int32] | None = None
+            self.duty_similarity: npt.NDArray[np.float32] | None = None
+            if (self.folder / DUTY_ROWS).is_file():
+                self.duty_rows = np.load(self.folder / DUTY_ROWS, mmap_mode="r")
+                self.duty_index = np.load(self.folder / DUTY_INDEX, mmap_mode="r")
+                self.duty_similarity = np.load(self.folder / DUTY_SIMILARITY, mmap_mode="r")
         except (OSError, ValueError, KeyError) as exc:
             raise BundleError(f"bundle {version} cannot be opened: {exc}") from exc
         self.keys: list[str] = list(self.vectors.index_to_key)

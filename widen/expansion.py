@@ -4,12 +4,13 @@ Plain functions over a loaded bundle (`Lexicon`) and a snapshot of the reviewer 
 no HTTP, no globals, no I/O. The CLI, the service and the review page all call `expand` and
 show the `ExpansionResult` it returns.
 
-The relation hint follows the dual embedding space idea (Mitra et al. 2016, "A Dual Embedding
-Space Model for Document Ranking"; Nalisnick et al. 2016): input-input cosine says two phrases
-are used the same way (typical: names for the same thing), input-output cosine says they are
-used together (topical). Names for the same job sit close in input space and are not pushed
-apart in input-output space; a different job that postings mention alongside (the colleague,
-the other licence) is further in input space and pushed apart in input-output space.
+Where to look for a job's other names: its neighbours in skip-gram space, and, for a title, the
+titles posted with the most alike duties (`training.duties`). How alike two titles are decides
+the relation hint: two titles whose duties are as alike as one title's own two halves are in
+this bundle are `equivalent`; less alike, `related`; much less, dropped. Where a pair has no
+duties profiles the hint follows the dual embedding space idea (Mitra et al. 2016, "A Dual
+Embedding Space Model for Document Ranking"; Nalisnick et al. 2016): input-input cosine says two
+phrases are used the same way, input-output cosine says they are used together.
 """
 
 from __future__ import annotations
@@ -19,14 +20,14 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from widen.decisions import DecisionSet
+from widen.decisions import DecisionSet, PhraseDecisions
 from widen.lexicon import Lexicon
 from widen.neighbours import top_k_for_vector
 from widen.options import ExpansionOptions
-from widen.query_text import render
-from widen.result import Clause, Dropped, Expansion, ExpansionResult, ModelInfo, Segment
+from widen.query_text import JOBS, baseline_text, merged_text, render, words_text
+from widen.result import Clause, Dropped, DropReason, Expansion, ExpansionResult, ModelInfo, Segment
 from widen.segment import Piece, segment_query
-from widen.text import display, form, key_of
+from widen.text import PHRASE_JOINER, display, form, key_of
 
 __all__ = ["expand", "weight_for"]
 
@@ -38,15 +39,12 @@ def weight_for(similarity: float, options: ExpansionOptions) -> float:
 
 
 @dataclass(frozen=True)
-class _Candidates:
-    """Neighbours as parallel lists: entry index, similarity, input-output cosine, title share."""
-
-    entries: list[int]
-    similarities: list[float]
-    in_out: list[float]
-    title_shares: list[float]
-    source: str
-    own_share: float
+class _Candidate:
+    entry: int
+    similarity: float  # cosine of the input vectors
+    in_out: float  # input-output cosine, both directions averaged for a known entry
+    title_share: float
+    duties: float | None  # cosine of the duties profiles; -1.0 when both have one and they are not close
 
 
 def _segment_vector(lex: Lexicon, piece: Piece) -> npt.NDArray[np.float32]:
@@ -60,73 +58,60 @@ def _segment_vector(lex: Lexicon, piece: Piece) -> npt.NDArray[np.float32]:
     return composed
 
 
-def _candidates(lex: Lexicon, piece: Piece, options: ExpansionOptions) -> _Candidates:
-    """Neighbours of a known entry (precomputed table) or of a composed vector (exact search).
-
-    Each comes with its input-output cosine, averaged over both directions for a known entry
-    (the composed segment has no output vector of its own).
-    """
+def _candidates(lex: Lexicon, piece: Piece, options: ExpansionOptions) -> tuple[list[_Candidate], str, float]:
+    """Neighbours of a known entry (the precomputed tables) or of a composed vector (exact search),
+    closest first; the source to report, and the segment's own title share."""
     vector = _segment_vector(lex, piece)
     if piece.parts:
         rows = [lex.index[p] for p in piece.parts]
         idx, sims = top_k_for_vector(lex.normed, vector, options.candidates)
-        own_share = float(np.mean(lex.title_share[rows]))
         io = (np.asarray(lex.bundle.output_vectors[idx]) @ vector) / lex.output_norms[idx]
-        source = "composed"
-    else:
-        i = lex.index[piece.key]
-        idx = np.asarray(lex.bundle.neighbour_index[i, : options.candidates])
-        sims = np.asarray(lex.bundle.neighbour_similarity[i, : options.candidates])
-        own_share = float(lex.title_share[i])
-        out_vector = np.asarray(lex.bundle.output_vectors[i]) / lex.output_norms[i]
-        in_out = (np.asarray(lex.bundle.output_vectors[idx]) @ vector) / lex.output_norms[idx]
-        out_in = np.asarray(lex.normed[idx]) @ out_vector
-        io = (in_out + out_in) / 2.0
-        source = "model"
-    return _Candidates(idx.tolist(), sims.tolist(), io.tolist(), lex.title_share[idx].tolist(), source, own_share)
+        shares = lex.title_share[idx]
+        found = [
+            _Candidate(int(j), float(s), float(o), float(t), None)
+            for j, s, o, t in zip(idx.tolist(), sims.tolist(), io.tolist(), shares.tolist(), strict=True)
+        ]
+        return found, "composed", float(np.mean(lex.title_share[rows]))
+    i = lex.index[piece.key]
+    duties = lex.duty_neighbours(i)
+    table = np.asarray(lex.bundle.neighbour_index[i, : options.candidates]).tolist()
+    extra = [j for j in duties if j not in set(table)]
+    idx = np.asarray(table + extra, dtype=np.int64)
+    sims = np.asarray(lex.normed[idx]) @ vector
+    out_vector = np.asarray(lex.bundle.output_vectors[i]) / lex.output_norms[i]
+    in_out = (np.asarray(lex.bundle.output_vectors[idx]) @ vector) / lex.output_norms[idx]
+    io = (in_out + np.asarray(lex.normed[idx]) @ out_vector) / 2.0
+    mine = bool(duties)
+    found = []
+    for j, s, o, t in zip(idx.tolist(), sims.tolist(), io.tolist(), lex.title_share[idx].tolist(), strict=True):
+        d = duties.get(j, -1.0) if mine and lex.has_duties(j) else None
+        found.append(_Candidate(j, float(s), float(o), float(t), d))
+    found.sort(key=lambda c: (-(c.duties if c.duties is not None else c.similarity), c.entry))
+    return found, "model", float(lex.title_share[i])
 
 
-def _relation(similarity: float, in_out: float, options: ExpansionOptions) -> str:
-    if similarity >= options.equivalent_similarity and in_out >= options.equivalent_in_out:
+def _relation(c: _Candidate, lex: Lexicon, options: ExpansionOptions) -> str:
+    if c.duties is not None and lex.split_half is not None:
+        return "equivalent" if c.duties >= options.equivalent_duties * lex.split_half else "related"
+    if c.similarity >= options.equivalent_similarity and c.in_out >= options.equivalent_in_out:
         return "equivalent"
     return "related"
 
 
-def _expand_piece(
-    lex: Lexicon, piece: Piece, decisions: DecisionSet, options: ExpansionOptions, explain: bool
-) -> tuple[list[Expansion], list[Dropped]]:
-    text = display(piece.key)
-    words = text.split(" ")
-    stop = frozenset(options.stop_words)
-    modifiers = frozenset(options.modifiers)
-    # Protected names, unknown terms, stop words and segments made only of modifiers ("night
-    # shift", "part time": a shift pattern or contract, not a job) are never expanded: their
-    # neighbours are other patterns, which would change what the seeker asked for.
-    if (
-        piece.kind == "protected"
-        or (piece.kind == "unknown" and not piece.parts)
-        or all(w in stop for w in words)
-        or all(w in stop or w in modifiers for w in words)
-    ):
-        return [], []
-    said = decisions.get(text)
-    found = _candidates(lex, piece, options)
-    own_share = found.own_share
-    if said.exempt:
-        return [], [
-            Dropped(phrase=display(lex.keys[j]), similarity=round(sim, 4), reason="exempt")
-            for j, sim in zip(found.entries, found.similarities, strict=True)
-        ] if explain else []
-    connectors = stop
-    own_words = set(words) - connectors
-    own_core = own_words - modifiers
-    kept: list[Expansion] = []
-    dropped: list[Dropped] = []
-    taken_forms = {form(text, connectors)}
-    own_vector = _segment_vector(lex, piece)
+@dataclass(frozen=True)
+class _Context:
+    """What one segment's filters need to know of the whole query."""
+
+    words: frozenset[str]  # every word of the query's job segments
+    head: bool  # a single word next to another job segment: the head of a title split in two
+    whole: npt.NDArray[np.float32] | None  # the job segments' composed vector, for a head word
+
+
+def _pinned(lex: Lexicon, said: PhraseDecisions, vector: npt.NDArray[np.float32]) -> list[Expansion]:
+    kept = []
     for phrase, weight in said.pinned:
         j = lex.index.get(key_of(phrase))
-        similarity = 0.0 if j is None else float(np.asarray(lex.normed[j]) @ own_vector)
+        similarity = 0.0 if j is None else float(np.asarray(lex.normed[j]) @ vector)
         kept.append(
             Expansion(
                 phrase=phrase,
@@ -136,24 +121,51 @@ def _expand_piece(
                 source="pinned",
             )
         )
-        taken_forms.add(form(phrase, connectors))
+    return kept
+
+
+def _expand_piece(
+    lex: Lexicon, piece: Piece, decisions: DecisionSet, options: ExpansionOptions, explain: bool, context: _Context
+) -> tuple[list[Expansion], list[Dropped]]:
+    """The expansions of one job segment (its correction aside), and with `explain` every drop and why."""
+    if piece.kind not in JOBS or (piece.kind == "unknown" and not piece.parts):
+        return [], []
+    text = display(piece.key)
+    said = decisions.get(piece.typed or text)
+    found, source, own_share = _candidates(lex, piece, options)
+    if said.exempt:
+        drops = [
+            Dropped(phrase=display(lex.keys[c.entry]), similarity=round(c.similarity, 4), reason="exempt")
+            for c in found
+        ]
+        return [], drops if explain else []
+    stop = frozenset(options.noise_words)
+    modifiers = frozenset(options.modifiers) | options.pattern_words()
+    own_words = set(text.split(" ")) - stop
+    own_core = own_words - modifiers
+    vector = _segment_vector(lex, piece)
+    kept = _pinned(lex, said, vector)
+    taken_forms = {form(text, stop)} | {form(e.phrase, stop) for e in kept}
+    pinned = {e.phrase for e in kept}
     model_slots = max(options.max_per_segment - len(kept), 0)
     model_kept = 0
-    pinned = {p for p, _ in said.pinned}
-    own_form = form(text, connectors)
-    for j, similarity, in_out, share in zip(
-        found.entries, found.similarities, found.in_out, found.title_shares, strict=True
-    ):
+    own_form = form(text, stop)
+    dropped: list[Dropped] = []
+    floor = options.related_duties * (lex.split_half or 0.0)
+    # A title with a duties profile is compared with other titles by their duties; a neighbour with
+    # no profile of its own is no title the dump posts often enough to tell its duties.
+    titled = any(c.duties is not None for c in found)
+    for c in found:
         if model_kept >= model_slots and not explain:
             break  # nothing more can be kept, and nobody asked why not
-        e = lex.entry(j, connectors)
-        relation = _relation(similarity, in_out, options)
-        reason = None
+        e = lex.entry(c.entry, stop, options.title_share)
+        relation = _relation(c, lex, options)
+        reason: DropReason | None = None
         if e.protected:
             reason = "protected"
         elif e.junk:
             reason = "number_or_stop_word"
-        elif similarity < options.min_similarity:
+        elif c.duties is None and c.similarity < options.min_similarity:
             reason = "below_min_similarity"
         elif e.phrase in said.blocked:
             reason = "blocked"
@@ -163,11 +175,23 @@ def _expand_piece(
             reason = "same_as_original"
         elif e.content < own_words:
             reason = "broader_than_original"
-        elif not options.allow_modifier_changes and (e.content - modifiers) == own_core:
+        elif e.content <= modifiers or (not options.allow_modifier_changes and (e.content - modifiers) == own_core):
             reason = "modifier_only"
-        elif own_share >= options.title_share > share:
+        elif context.head and own_words < e.content and not (e.content - own_words) <= context.words:
+            reason = "narrower_than_query"
+        elif (
+            context.head
+            and context.whole is not None
+            and float(lex.normed[c.entry] @ context.whole) < options.min_similarity
+        ):
+            reason = "off_query"
+        elif c.duties is not None and c.duties < floor:
+            reason = "different_duties"
+        elif c.duties is None and titled:
+            reason = "not_a_title"
+        elif own_share >= options.title_share > c.title_share:
             reason = "kind_mismatch"
-        elif in_out > options.alongside_in_out:
+        elif c.duties is None and c.in_out > options.alongside_in_out:
             reason = "used_alongside"
         elif e.form in taken_forms:
             reason = "near_duplicate"
@@ -179,18 +203,24 @@ def _expand_piece(
             if explain:
                 dropped.append(
                     Dropped.model_construct(
-                        phrase=e.phrase, similarity=round(similarity, 4), reason=reason, relation=relation
+                        phrase=e.phrase,
+                        similarity=round(c.similarity, 4),
+                        reason=reason,
+                        relation=relation,
+                        duties=None if c.duties is None or c.duties < -0.5 else round(c.duties, 4),
                     )
                 )
             continue
-        weight = weight_for(similarity, options) * (options.related_factor if relation == "related" else 1.0)
+        closeness = c.duties if c.duties is not None else c.similarity
+        weight = weight_for(closeness, options) * (options.related_factor if relation == "related" else 1.0)
         kept.append(
             Expansion.model_construct(
                 phrase=e.phrase,
-                similarity=round(similarity, 4),
+                similarity=round(c.similarity, 4),
                 weight=round(max(weight, 1e-4), 4),
                 relation=relation,
-                source=found.source,
+                source="duties" if c.duties is not None and source == "model" else source,
+                duties=None if c.duties is None else round(c.duties, 4),
             )
         )
         taken_forms.add(e.form)
@@ -198,21 +228,74 @@ def _expand_piece(
     return kept, dropped
 
 
+def _context(lex: Lexicon, pieces: list[Piece], s: int) -> _Context:
+    jobs = [p for p in pieces if p.kind in JOBS]
+    words = frozenset(w for p in jobs for w in p.key.split(PHRASE_JOINER))
+    piece = pieces[s]
+    beside = [pieces[n] for n in (s - 1, s + 1) if 0 <= n < len(pieces)]
+    head = PHRASE_JOINER not in piece.key and piece.kind in JOBS and any(p.kind in JOBS for p in beside)
+    whole = None
+    if head:
+        known = [lex.index[w] for p in jobs for w in ([p.key] if p.key in lex.index else p.parts)]
+        if len(known) > 1:
+            mean = np.asarray(lex.normed[known]).mean(axis=0)
+            whole = (mean / (np.linalg.norm(mean) or 1.0)).astype(np.float32)
+    return _Context(words, head, whole)
+
+
+def _side_clauses(lex: Lexicon, piece: Piece, options: ExpansionOptions) -> list[Expansion]:
+    """A shift pattern's other spellings that the dump uses; nothing for other kinds."""
+    if piece.kind != "pattern" or piece.pattern is None:
+        return []
+    own = display(piece.key)
+    spellings = [s for s in lex.used_spellings(piece.pattern, options) if s != own][: options.max_per_segment]
+    weight = round(options.pattern_weight, 4)
+    return [
+        Expansion(phrase=s, similarity=1.0, weight=weight, relation="equivalent", source="pattern") for s in spellings
+    ]
+
+
+def _correction(
+    piece: Piece, decisions: DecisionSet, options: ExpansionOptions
+) -> tuple[Expansion | None, Dropped | None]:
+    """The spelling correction of a segment the seeker mistyped, unless a reviewer blocked it."""
+    if not piece.typed or piece.kind == "noise":
+        return None, None
+    corrected = display(piece.key)
+    if corrected in decisions.get(piece.typed).blocked:
+        return None, Dropped(phrase=corrected, similarity=1.0, reason="blocked")
+    fixed = Expansion(
+        phrase=corrected,
+        similarity=1.0,
+        weight=round(options.spelling_weight, 4),
+        relation="equivalent",
+        source="spelling",
+    )
+    return fixed, None
+
+
 def expand(
     lex: Lexicon, decisions: DecisionSet, query: str, options: ExpansionOptions, explain: bool = False
 ) -> ExpansionResult:
     """Expand a query with the bundle `lex` and the reviewer decisions; `explain` keeps every drop and why."""
     pieces = segment_query(
-        query,
-        lex.phraser,
-        lex.index,
-        lex.protected,
-        max_words=min(options.max_words, lex.max_words),
-        max_tokens=options.max_tokens,
+        query, lex.phraser, lex.vocabulary(options), min(options.max_words, lex.max_words), options.max_tokens
     )
-    expanded = [_expand_piece(lex, p, decisions, options, explain) for p in pieces]
+    boost = options.original_boost
+    expanded: list[tuple[list[Expansion], list[Dropped]]] = []
+    for s, piece in enumerate(pieces):
+        correction, refused = _correction(piece, decisions, options)
+        if refused is not None:  # a blocked correction: the typed words stand alone
+            expanded.append(([], [refused] if explain else []))
+            continue
+        kept, dropped = _expand_piece(lex, piece, decisions, options, explain, _context(lex, pieces, s))
+        if correction is not None:
+            scale = correction.weight
+            kept = [correction] + [e.model_copy(update={"weight": round(max(e.weight * scale, 1e-4), 4)}) for e in kept]
+        expanded.append((kept + _side_clauses(lex, piece, options), dropped))
     # Over the clause budget, the lightest expansions go first; every original stays.
-    budget = max(options.max_clauses - len({p.key for p in pieces}), 0)
+    originals = {piece.typed or display(piece.key) for piece in pieces if piece.kind != "noise"}
+    budget = max(options.max_clauses - len(originals), 0)
     ranked = sorted(
         ((e.weight, s, n) for s, (kept, _) in enumerate(expanded) for n, e in enumerate(kept)),
         key=lambda t: (-t[0], t[1], t[2]),
@@ -220,8 +303,6 @@ def expand(
     keep = {(s, n) for _, s, n in ranked[:budget]}
     segments: list[Segment] = []
     clauses: list[Clause] = []
-    boost = options.original_boost
-    originals = {display(p.key) for p in pieces}
     emitted: set[str] = set()
     for s, (piece, (kept, dropped)) in enumerate(zip(pieces, expanded, strict=True)):
         final, over = [], []
@@ -237,26 +318,32 @@ def expand(
             else:
                 final.append(e)
                 emitted.add(e.phrase)
-        kind = "unknown" if piece.kind == "unknown" else piece.kind
+        typed = piece.typed or display(piece.key)
         segments.append(
             Segment(
-                text=display(piece.key),
-                kind=kind,  # type: ignore[arg-type]
+                text=typed,
+                kind=piece.kind,  # type: ignore[arg-type]
+                field=piece.field,
+                pattern=piece.pattern,
+                corrected=display(piece.key) if piece.typed else None,
                 expansions=final,
                 dropped=(dropped + over) if explain else None,
             )
         )
-        if display(piece.key) not in emitted:  # a word typed twice is one clause
-            emitted.add(display(piece.key))
-            clauses.append(Clause(phrase=display(piece.key), weight=round(boost, 4), original=True, segment=s))
+        if piece.kind == "noise":
+            continue  # names no job: no clause
+        if typed not in emitted:  # a word typed twice is one clause
+            emitted.add(typed)
+            clauses.append(Clause(phrase=typed, weight=round(boost, 4), original=True, segment=s))
         clauses.extend(
             Clause(phrase=e.phrase, weight=round(e.weight * boost, 4), original=False, segment=s) for e in final
         )
-    # The original clause of the first segment comes first (it already does: segment order).
-    return ExpansionResult(
+    result = ExpansionResult(
         query=query,
         model=ModelInfo(version=lex.version, created_at=lex.created_at),
         segments=segments,
         clauses=clauses,
-        query_text=render(clauses, len(segments), options.operator),
+        query_text=render(clauses, segments, options, lex.names),
     )
+    full = merged_text(baseline_text(result), result.query_text, words=words_text(result))
+    return result.model_copy(update={"full_query": full})

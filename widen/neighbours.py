@@ -12,7 +12,7 @@ from collections.abc import Callable
 import numpy as np
 import numpy.typing as npt
 
-__all__ = ["normalise_rows", "top_k_table", "top_k_for_vector"]
+__all__ = ["normalise_rows", "top_k_table", "top_k_for_vector", "top_k_rows"]
 
 Matrix = npt.NDArray[np.float32]
 
@@ -26,7 +26,7 @@ def normalise_rows(vectors: npt.ArrayLike) -> Matrix:
     return result
 
 
-def _top_k_rows(sims: Matrix, k: int, stride: int = 8) -> tuple[npt.NDArray[np.int32], Matrix]:
+def top_k_rows(sims: Matrix, k: int, stride: int = 8) -> tuple[npt.NDArray[np.int32], Matrix]:
     """Exact top k of every row, ordered by similarity descending, then index ascending.
 
     Selecting over whole rows costs more than the matrix product, so a cheaper bound goes
@@ -76,7 +76,7 @@ def top_k_table(
         sims = normed[start:stop] @ normed.T
         rows = np.arange(stop - start)
         sims[rows, rows + start] = -np.inf
-        idx, val = _top_k_rows(sims, k)
+        idx, val = top_k_rows(sims, k)
         indices[start:stop] = idx
         sims_out[start:stop] = val
         if on_block is not None:
@@ -88,5 +88,5 @@ def top_k_for_vector(normed: Matrix, vector: npt.ArrayLike, k: int) -> tuple[npt
     """Exact search for one (already normalised) vector over all rows."""
     query = np.asarray(vector, dtype=np.float32).reshape(1, -1)
     sims = query @ normed.T
-    idx, val = _top_k_rows(sims, k)
+    idx, val = top_k_rows(sims, k)
     return idx[0], val[0]

@@ -14,28 +14,46 @@ from pydantic import BaseModel, ConfigDict, Field
 
 from widen.phrases import CONNECTOR_WORDS
 
-__all__ = ["ExpansionOptions", "DEFAULT_MODIFIERS", "DEFAULT_STOP_WORDS"]
+__all__ = ["ExpansionOptions", "DEFAULT_MODIFIERS", "DEFAULT_NOISE_WORDS", "DEFAULT_PATTERNS"]
 
-DEFAULT_MODIFIERS = [
-    "senior",
-    "junior",
-    "trainee",
-    "relief",
-    "bank",
-    "temporary",
-    "temp",
-    "part",
-    "full",
-    "time",
-    "nights",
-    "night",
-    "shift",
-    "days",
-    "weekend",
-    "lead",
+#: Words that qualify a job without changing it; a segment made only of them is never required.
+DEFAULT_MODIFIERS = ["senior", "junior", "trainee", "relief", "bank", "lead"]
+#: Words seekers add that name no job ("kp jobs near pellmire"); with the connector words of the
+#: phrase miner. A segment made only of them is dropped from the query and shown as `noise`.
+DEFAULT_NOISE_WORDS = [
+    *CONNECTOR_WORDS,
+    "job",
+    "jobs",
+    "vacancy",
+    "vacancies",
+    "hiring",
+    "near",
+    "me",
+    "near me",
+    "nearby",
+    "around",
+    "local",
+    "work",
+    "role",
+    "roles",
+    "position",
+    "positions",
+    "opening",
+    "openings",
+    "urgent",
+    "now",
 ]
-# Connector words (the phrase miner's own list) and words seekers add that name no job.
-DEFAULT_STOP_WORDS = [*CONNECTOR_WORDS, "job", "jobs", "vacancy", "vacancies", "work", "near", "me"]
+#: Shift patterns and contracts, each with the spellings seekers and employers use for it (common
+#: practice on job boards, no single source). A pattern is never expanded to another pattern; its
+#: spellings found in the dump match each other (widen learns which ones the dump uses).
+DEFAULT_PATTERNS = {
+    "part time": ["part time", "p/t", "pt", "parttime"],
+    "full time": ["full time", "f/t", "ft", "fulltime"],
+    "temporary": ["temporary", "temp", "temp to perm"],
+    "nights": ["nights", "night", "night shift", "night shifts", "nightshift", "waking nights", "overnight"],
+    "weekends": ["weekends", "weekend", "weekend only", "weekend work"],
+    "days": ["days", "day shift", "days only"],
+}
 
 
 class ExpansionOptions(BaseModel):
@@ -53,14 +71,37 @@ class ExpansionOptions(BaseModel):
     operator: Literal["AND", "OR"] = "AND"
     allow_modifier_changes: bool = False
     modifiers: tuple[str, ...] = tuple(DEFAULT_MODIFIERS)
-    stop_words: tuple[str, ...] = tuple(DEFAULT_STOP_WORDS)
+    noise_words: tuple[str, ...] = Field(default=tuple(DEFAULT_NOISE_WORDS), description="dropped from the query")
+    patterns: dict[str, tuple[str, ...]] = Field(
+        default_factory=lambda: {k: tuple(v) for k, v in DEFAULT_PATTERNS.items()},
+        description="shift patterns and their spellings; a pattern only ever matches its own spellings",
+    )
     # A segment that names a job (its entry is often in titles) only expands to entries that do too.
     title_share: float = Field(default=0.05, ge=0.0, le=1.0)
-    # The relation hint: equivalent needs both.
+    # The relation hint between two titles with duties profiles, as shares of the bundle's own
+    # "same job" cosine (the median of a title's two halves, `duties.split_half` in the manifest):
+    # equivalent at or above `equivalent_duties`, related down to `related_duties`, dropped below.
+    equivalent_duties: float = Field(default=0.75, gt=0.0, le=1.0)
+    related_duties: float = Field(default=0.3, ge=0.0, le=1.0)
+    # The relation hint where a pair has no duties profiles: equivalent needs both.
     equivalent_similarity: float = Field(default=0.8, ge=-1.0, le=1.0)
     equivalent_in_out: float = Field(default=-0.15, ge=-1.0, le=1.0)
     # Above this input-output cosine a neighbour is the phrase's context (used right beside it), not a name for it.
     alongside_in_out: float = Field(default=0.15, ge=-1.0, le=1.0)
+    # A spelling correction weighs this much of the seeker's own word (which stays, and stays first).
+    spelling_weight: float = Field(default=0.8, gt=0.0, lt=1.0)
+    # Another spelling of the seeker's shift pattern that the dump uses weighs this much.
+    pattern_weight: float = Field(default=0.9, gt=0.0, le=1.0)
+    # How query_text names a place or employer: in the free text (`text`), or in its own field of the
+    # index (`field`, as `location:"Hensby"`), which agency boilerplate listing every town cannot match.
+    places: Literal["text", "field"] = "text"
+    # The index's field for each of the dump's protected fields, where the names differ.
+    field_names: dict[str, str] = Field(default_factory=dict)
+    # `job`: only the job is required; places, patterns and modifiers only score; noise words are
+    # dropped. `all`: every segment but noise words is required (what widen did before it knew kinds).
+    match: Literal["job", "all"] = "job"
+    # Offer a correction for a word the bundle has never seen (a known word is never corrected).
+    spelling: bool = True
     candidates: int = Field(default=50, ge=1, le=1000)
     max_words: int = Field(default=3, ge=1, le=6)
     max_tokens: int = Field(default=32, ge=1, le=256, description="tokens of a query looked at")
@@ -72,6 +113,8 @@ class ExpansionOptions(BaseModel):
         original_boost: float | None = None,
         operator: str | None = None,
         strict: bool | None = None,
+        places: str | None = None,
+        match: str | None = None,
     ) -> ExpansionOptions:
         """These options narrowed by what one request asks for (CLI flags, API fields, page); None keeps."""
         asked: dict[str, Any] = {
@@ -80,8 +123,18 @@ class ExpansionOptions(BaseModel):
             "original_boost": original_boost,
             "operator": operator,
             "strict": strict,
+            "places": places,
+            "match": match,
         }
         update = {k: v for k, v in asked.items() if v is not None}
         if not update:
             return self
         return ExpansionOptions.model_validate({**self.model_dump(), **update})
+
+    def pattern_words(self) -> frozenset[str]:
+        """Every word of every pattern spelling ("part", "time", "p/t", "nights"...)."""
+        return frozenset(w for spellings in self.patterns.values() for s in spellings for w in s.split(" "))
+
+    def not_inside_phrases(self) -> frozenset[str]:
+        """Words no mined phrase may join to others: pattern words and noise words, connectors aside."""
+        return (self.pattern_words() | frozenset(self.noise_words)) - frozenset(CONNECTOR_WORDS)

@@ -3,6 +3,8 @@
 The passes are learned by `training.phrases` with gensim Phrases and kept in a bundle as
 plain JSON (opening a bundle never unpickles code). Pass one joins word pairs (and pairs
 around connector words: "head of care"); each later pass can join a phrase to a neighbour.
+A last pass joins the dump's frequent job titles ("early years practitioner") even where the
+statistics of the passes before did not.
 """
 
 from __future__ import annotations
@@ -12,6 +14,8 @@ from dataclasses import dataclass
 from typing import Any, Literal
 
 from gensim.models.phrases import FrozenPhrases, npmi_scorer, original_scorer
+
+from widen.text import PHRASE_JOINER
 
 __all__ = ["CONNECTOR_WORDS", "PhraseRow", "Phraser", "Scoring"]
 
@@ -42,15 +46,35 @@ def scorer(name: str) -> Any:
 
 
 class Phraser:
-    """The frozen phrase passes, applied in order; the same object segments corpus and queries."""
+    """The frozen phrase passes, then the title pass, applied in order; the same object segments corpus
+    and queries. Parameters: the gensim passes; `titles`, the keys of the titles the last pass joins."""
 
-    def __init__(self, passes: list[FrozenPhrases]) -> None:
+    def __init__(self, passes: list[FrozenPhrases], titles: Iterable[str] = ()) -> None:
         self.passes = passes
+        self.titles = frozenset(titles)
+        self._title_words = {tuple(t.split(PHRASE_JOINER)) for t in self.titles}
+        self._longest = max((len(w) for w in self._title_words), default=0)
 
     def __call__(self, sentence: list[str]) -> list[str]:
         for frozen in self.passes:
             sentence = frozen[sentence]
-        return sentence
+        return self._join_titles(sentence) if self._title_words else sentence
+
+    def _join_titles(self, entries: list[str]) -> list[str]:
+        """Greedy longest match of the titles over whole entries ("early_years" + "practitioner")."""
+        out: list[str] = []
+        i = 0
+        while i < len(entries):
+            best, words = i, entries[i].split(PHRASE_JOINER)
+            for j in range(i + 1, len(entries)):
+                words = words + entries[j].split(PHRASE_JOINER)
+                if len(words) > self._longest:
+                    break
+                if tuple(words) in self._title_words:
+                    best = j
+            out.append(PHRASE_JOINER.join(entries[i : best + 1]) if best > i else entries[i])
+            i = best + 1
+        return out
 
     def stream(self, sentences: Iterable[list[str]]) -> Iterator[list[str]]:
         for sentence in sentences:
@@ -69,7 +93,8 @@ class Phraser:
                     "phrasegrams": {k: float(v) for k, v in sorted(p.phrasegrams.items())},
                 }
                 for p in self.passes
-            ]
+            ],
+            "titles": sorted(self.titles),
         }
 
     @classmethod
@@ -85,4 +110,4 @@ class Phraser:
             frozen.connector_words = frozenset(item["connector_words"])
             frozen.phrasegrams = dict(item["phrasegrams"])
             passes.append(frozen)
-        return cls(passes)
+        return cls(passes, data.get("titles", ()))

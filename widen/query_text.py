@@ -2,19 +2,34 @@
 
 Every clause is a quoted phrase with a `^` boost; quotes and backslashes cannot reach inside
 one, so no input breaks the engine's parser. Inside quotes the parser reads no operators.
+
+widen's query text is built the way engines search: the job is required, `+(...)`, through its
+clauses (the seeker's words, their correction, the neighbours) OR'ed in one group; a place, an
+employer, a shift pattern or a modifier only scores (no mark: the engine's optional clause), so a
+posting that spells the pattern otherwise, or names no town in its text, is still found; noise
+words ("jobs", "near") are left out. A place or employer is written into the free text
+(`places = "text"`) or into its own field of the index (`places = "field"`: `location:"Hensby"`),
+where agency boilerplate that lists every town cannot match it. `match = "all"` requires every
+segment but noise words. This is the syntax of Lucene's classic query parser, which tantivy,
+Elasticsearch's query_string and Solr's standard parser read alike (common practice, no source).
 """
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 
-from widen.result import Clause, ExpansionResult
+from widen.options import ExpansionOptions
+from widen.result import Clause, ExpansionResult, Segment
+from widen.text import key_of
 
-__all__ = ["render", "baseline_text", "merged_text", "BASELINE_BOOST"]
+__all__ = ["render", "baseline_text", "words_text", "merged_text", "BASELINE_BOOST", "WORDS_BOOST", "JOBS"]
 
 #: How a front end keeps the seeker's exact matches first: the baseline query, boosted this much,
 #: OR the service's query_text. 0 sends query_text as it is.
 BASELINE_BOOST = 10.0
+#: The kinds of segment that name the job.
+JOBS = ("phrase", "term", "unknown")
+_NAMED = ("place", "employer", "protected")
 
 _UNQUOTABLE = str.maketrans("", "", '"\\')
 
@@ -32,25 +47,69 @@ def _number(weight: float) -> str:
     return format(weight, ".4f").rstrip("0").rstrip(".") or "0"
 
 
-def render(clauses: Sequence[Clause], segments: int, operator: str) -> str:
-    """Quoted phrases with ^boosts, OR inside a segment, segments joined by the operator."""
-    groups = []
-    for s in range(segments):
-        parts = [f"{_quote(c.phrase)}^{_number(c.weight)}" for c in clauses if c.segment == s]
-        if not parts:
+def _field_name(name: str) -> str:
+    """A field name the parser reads as one (letters, digits, _ and -); anything else is left out."""
+    return "".join(ch for ch in name if ch.isalnum() or ch in "_-")
+
+
+def render(
+    clauses: Sequence[Clause],
+    segments: Sequence[Segment],
+    options: ExpansionOptions,
+    names: Mapping[str, tuple[str, str]] | None = None,
+) -> str:
+    """The clauses as query text: each segment's clauses in one group; a job's group required."""
+    parts = []
+    for s, segment in enumerate(segments):
+        group = [c for c in clauses if c.segment == s]
+        if not group:
             continue
-        groups.append(parts[0] if len(parts) == 1 else "(" + " OR ".join(parts) + ")")
-    return f" {operator} ".join(groups)
+        required = options.operator == "AND" and (segment.kind in JOBS or options.match == "all")
+        field = None
+        if segment.kind in _NAMED and options.places == "field" and segment.field:
+            field = _field_name(options.field_names.get(segment.field, segment.field))
+        terms = []
+        for c in group:
+            if field:
+                written = (names or {}).get(key_of(c.phrase), (segment.field, c.phrase))[1]
+                terms.append(f"{field}:{_quote(written)}^{_number(c.weight)}")
+            else:
+                terms.append(f"{_quote(c.phrase)}^{_number(c.weight)}")
+        text = terms[0] if len(terms) == 1 else "(" + " OR ".join(terms) + ")"
+        parts.append(("+" if required else "") + text)
+    return " ".join(parts)
 
 
-def baseline_text(result: ExpansionResult, operator: str) -> str:
-    """The seeker's own words only: the original clause of every segment."""
-    originals = [c for c in result.clauses if c.original]
-    return render(originals, len(result.segments), operator)
+def baseline_text(result: ExpansionResult, operator: str = "AND") -> str:
+    """The seeker's own words only, every segment as typed (noise words too), joined by `operator`: what
+    "matches the seeker's words" means for exact-first, and the query widen compared against first."""
+    return f" {operator} ".join(f"{_quote(s.text)}^1" for s in result.segments if s.text.strip())
 
 
-def merged_text(baseline: str, query_text: str, baseline_boost: float = BASELINE_BOOST) -> str:
-    """The expanded query a front end sends: `(baseline)^B OR (query_text)`, or query_text alone."""
+#: How much the seeker's words as optional terms weigh in the recommended merge: enough to bring in,
+#: after everything else, the postings the engine's own default query would find.
+WORDS_BOOST = 0.1
+
+
+def words_text(result: ExpansionResult) -> str:
+    """The seeker's words as optional terms, each quoted (the engine's default query, with no syntax)."""
+    return " ".join(_quote(w) for s in result.segments for w in s.text.split(" ") if w.strip())
+
+
+def merged_text(
+    baseline: str,
+    query_text: str,
+    baseline_boost: float = BASELINE_BOOST,
+    words: str = "",
+    words_boost: float = WORDS_BOOST,
+) -> str:
+    """The expanded query a front end sends: `(baseline)^B OR (query_text)`, and with `words`,
+    `OR (words)^0.1` last; query_text alone when the boost is 0."""
     if baseline_boost <= 0 or not baseline:
         return query_text
-    return f"({baseline})^{baseline_boost:g} OR ({query_text})"
+    parts = [f"({baseline})^{baseline_boost:g}"]
+    if query_text:
+        parts.append(f"({query_text})")
+    if words:
+        parts.append(f"({words})^{words_boost:g}")
+    return " OR ".join(parts)

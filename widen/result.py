@@ -22,9 +22,9 @@ __all__ = [
     "SegmentKind",
 ]
 
-SegmentKind = Literal["phrase", "term", "unknown", "protected"]
+SegmentKind = Literal["phrase", "term", "unknown", "noise", "place", "employer", "protected", "pattern", "modifier"]
 Relation = Literal["equivalent", "related"]
-Source = Literal["model", "composed", "pinned"]
+Source = Literal["model", "duties", "composed", "pinned", "spelling", "pattern"]
 DropReason = Literal[
     "protected",
     "number_or_stop_word",
@@ -33,6 +33,10 @@ DropReason = Literal[
     "pinned",
     "same_as_original",
     "broader_than_original",
+    "narrower_than_query",
+    "off_query",
+    "different_duties",
+    "not_a_title",
     "modifier_only",
     "kind_mismatch",
     "used_alongside",
@@ -53,7 +57,11 @@ DROP_REASONS: dict[str, str] = {
     "pinned": "already pinned by a reviewer",
     "same_as_original": "the same words in another spelling",
     "broader_than_original": "broader than what was asked (fewer of its words)",
-    "modifier_only": "differs only by a modifier (senior, nights...)",
+    "narrower_than_query": "a narrower job than the query names, for a word that is only part of its title",
+    "off_query": "far from the whole query, for a word that is only part of its title",
+    "different_duties": "posted with other duties than the phrase: a different job",
+    "not_a_title": "not a title posted often enough to tell its duties, while the phrase is one",
+    "modifier_only": "only a modifier, or differs only by one (senior, nights...)",
     "kind_mismatch": "rarely a job title, while the phrase is one",
     "used_alongside": "used beside the phrase (its context), not instead of it",
     "near_duplicate": "a spelling of a neighbour already kept",
@@ -79,7 +87,14 @@ class Expansion(_Frozen):
     similarity: float = Field(description="cosine similarity of the input vectors, -1..1")
     weight: float = Field(description="boost of this clause; always below the original's")
     relation: Relation = Field(description="equivalent: likely the same job; related: close, a different job")
-    source: Source
+    source: Source = Field(
+        description="model: a skip-gram neighbour; duties: a title posted with alike duties; composed: a "
+        "neighbour of the mean of the words; pinned: a reviewer's; spelling: the correction of a mistyped "
+        "word; pattern: another spelling of a shift pattern"
+    )
+    duties: float | None = Field(
+        default=None, description="cosine of the two titles' duties profiles, where both have one"
+    )
 
 
 class Dropped(_Frozen):
@@ -87,11 +102,19 @@ class Dropped(_Frozen):
     similarity: float
     reason: DropReason = Field(description="why it was dropped; DROP_REASONS in the README says it in words")
     relation: Relation | None = Field(default=None, description="the relation hint, where the model gave one")
+    duties: float | None = Field(default=None, description="cosine of the duties profiles, where both have one")
 
 
 class Segment(_Frozen):
-    text: str
-    kind: SegmentKind
+    text: str = Field(description="the segment as the seeker typed it")
+    kind: SegmentKind = Field(
+        description="phrase, term: a job (required); unknown: not in the vocabulary; noise: names no job "
+        "(dropped); place, employer, protected: a name from the dump's `field`; pattern: a shift pattern; "
+        "modifier: qualifies a job without changing it"
+    )
+    field: str | None = Field(default=None, description="for a place or employer: the dump's field it came from")
+    pattern: str | None = Field(default=None, description="for a shift pattern: its name")
+    corrected: str | None = Field(default=None, description="the spelling correction of a mistyped segment")
     expansions: list[Expansion] = []
     dropped: list[Dropped] | None = Field(default=None, description="only when explain is asked")
 
@@ -108,4 +131,13 @@ class ExpansionResult(_Frozen):
     model: ModelInfo
     segments: list[Segment]
     clauses: list[Clause]
-    query_text: str = Field(description="the clauses as a boolean query string (quoted phrases, ^boosts, OR, AND)")
+    query_text: str = Field(
+        description="the clauses in the engine's syntax: quoted phrases with ^boosts, a job's clauses OR'ed "
+        "in one group marked + (required), places, patterns and modifiers without a mark (they only score)"
+    )
+    full_query: str = Field(
+        default="",
+        description="the whole query to send for a front end that sends widen's: the seeker's words all "
+        "required, boosted 10 (exact matches first), OR query_text, OR the seeker's words as optional terms "
+        "at 0.1 (never fewer postings than the engine's default query)",
+    )

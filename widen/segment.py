@@ -1,33 +1,73 @@
-"""Splitting a seeker's query into segments the way the corpus was phrased.
+"""Splitting a seeker's query into segments the way the corpus was phrased, and saying what each is.
 
-The query goes through the one tokeniser and the bundle's phrase passes, then
-neighbouring entries are joined by greedy longest match (up to `max_words` words) against
-the vocabulary and the protected names. Text in double quotes is kept as one segment.
+The query goes through the one tokeniser; a word the bundle has never seen (not in its vocabulary,
+not a place or employer name, not a word widen knows the role of) gets a spelling correction from
+the vocabulary, when one is close enough. The corrected words go through the bundle's phrase
+passes, then neighbouring entries are joined by greedy longest match (up to `max_words` words)
+against the vocabulary, the protected names and the shift patterns. Text in double quotes is kept
+as one segment. Each segment has a kind:
+
+- `phrase`, `term`: a job (an entry of the vocabulary), the only kinds the query requires;
+- `unknown`: not in the vocabulary (composed from its words when they are, and quoted);
+- `noise`: words that name no job ("jobs", "near", "in"), dropped from the query;
+- `place`, `employer`, `protected`: a name from the dump's fields (`field` says which);
+- `pattern`: a shift pattern or contract ("nights", "p/t"), which matches its own spellings only;
+- `modifier`: words that qualify a job without changing it ("senior", "relief").
 """
 
 from __future__ import annotations
 
 import re
-from collections.abc import Callable, Collection, Sequence
+from collections.abc import Callable, Collection, Mapping, Sequence
 from dataclasses import dataclass
 
-from widen.text import PHRASE_JOINER, tokens, words_in
+from widen.text import PHRASE_JOINER, is_number, tokens, words_in
 
-__all__ = ["Piece", "segment_query"]
+__all__ = ["Piece", "Vocabulary", "segment_query"]
 
 _QUOTED = re.compile(r'"([^"]*)"')
 
 
 @dataclass(frozen=True)
 class Piece:
-    """One segment: its vocabulary key (words joined by the phrase joiner) and how it was found.
+    """One segment: its vocabulary key (words joined by the phrase joiner), its kind, and the words as
+    the seeker typed them when a spelling correction changed them (`typed`).
 
-    `parts` are the known entries a composed vector is built from (empty unless composed).
+    `parts` are the known entries a composed vector is built from (empty unless composed); `field`,
+    the dump's field of a protected name; `pattern`, the name of a shift pattern.
     """
 
     key: str
-    kind: str  # phrase, term, unknown, protected
+    kind: str
     parts: tuple[str, ...] = ()
+    typed: str = ""
+    field: str | None = None
+    pattern: str | None = None
+
+
+@dataclass(frozen=True)
+class Vocabulary:
+    """What segmentation needs of a bundle and the options, built once per bundle and options."""
+
+    entries: Collection[str]
+    names: Mapping[str, str]  # protected key -> its field
+    noise: frozenset[str]
+    modifiers: frozenset[str]
+    spellings: Mapping[str, str]  # pattern spelling key -> pattern name
+    correct: Callable[[str], str | None]
+
+    def known(self, key: str) -> bool:
+        return key in self.entries or key in self.names or key in self.spellings
+
+    def word_is_known(self, word: str) -> bool:
+        return (
+            word in self.entries
+            or word in self.names
+            or word in self.noise
+            or word in self.modifiers
+            or word in self.spellings
+            or is_number(word)
+        )
 
 
 def _greedy(entries: Sequence[str], known: Callable[[str], bool], max_words: int) -> list[str]:
@@ -47,21 +87,48 @@ def _greedy(entries: Sequence[str], known: Callable[[str], bool], max_words: int
     return out
 
 
-def _classify(key: str, vocabulary: Collection[str], protected: Collection[str], parts: Sequence[str]) -> Piece:
-    if key in protected:
-        return Piece(key, "protected")
-    if key in vocabulary:
-        return Piece(key, "phrase" if PHRASE_JOINER in key else "term")
-    if len(parts) > 1 and all(p in vocabulary for p in parts):
-        return Piece(key, "unknown", tuple(parts))
-    return Piece(key, "unknown")
+def _classify(key: str, vocab: Vocabulary, parts: Sequence[str], typed: str) -> Piece:
+    words = key.split(PHRASE_JOINER)
+    if key in vocab.spellings:
+        return Piece(key, "pattern", typed=typed, pattern=vocab.spellings[key])
+    if all(w in vocab.noise for w in words):
+        return Piece(key, "noise", typed=typed)
+    if key in vocab.names:
+        field = vocab.names[key]
+        kind = {"location": "place", "employer": "employer"}.get(field, "protected")
+        return Piece(key, kind, typed=typed, field=field)
+    if all(w in vocab.modifiers for w in words):
+        return Piece(key, "modifier", typed=typed)
+    if key in vocab.entries:
+        return Piece(key, "phrase" if PHRASE_JOINER in key else "term", typed=typed)
+    if len(parts) > 1 and all(p in vocab.entries for p in parts):
+        return Piece(key, "unknown", tuple(parts), typed=typed)
+    return Piece(key, "unknown", typed=typed)
+
+
+def _corrected(toks: list[str], vocab: Vocabulary) -> list[str]:
+    """The tokens with every unknown word replaced by its spelling correction, where there is one."""
+    out = []
+    for tok in toks:
+        fixed = None if vocab.word_is_known(tok) else vocab.correct(tok)
+        out.append(fixed or tok)
+    return out
+
+
+def _spans(original: list[str], keys: list[str]) -> list[str]:
+    """The typed words behind each segment key (a correction keeps the number of words)."""
+    typed, i = [], 0
+    for key in keys:
+        n = words_in(key)
+        typed.append(" ".join(original[i : i + n]))
+        i += n
+    return typed
 
 
 def segment_query(
     query: str,
     phraser: Callable[[list[str]], list[str]],
-    vocabulary: Collection[str],
-    protected: Collection[str],
+    vocab: Vocabulary,
     max_words: int,
     max_tokens: int,
 ) -> list[Piece]:
@@ -76,21 +143,21 @@ def segment_query(
         position = match.end()
     chunks.append((query[position:], False))
 
-    def known(key: str) -> bool:
-        return key in vocabulary or key in protected
-
     for text, quoted in chunks:
         toks = tokens(text)[:budget]
         budget -= len(toks)
         if not toks:
             continue
+        fixed = _corrected(toks, vocab)
         if quoted:
-            key = PHRASE_JOINER.join(toks)
-            pieces.append(_classify(key, vocabulary, protected, _greedy(phraser(list(toks)), known, max_words)))
+            key = PHRASE_JOINER.join(fixed)
+            typed = " ".join(toks) if fixed != toks else ""
+            pieces.append(_classify(key, vocab, _greedy(phraser(list(fixed)), vocab.known, max_words), typed))
             continue
-        for key in _greedy(phraser(list(toks)), known, max_words):
-            parts = key.split(PHRASE_JOINER)
-            pieces.append(_classify(key, vocabulary, protected, parts))
+        keys = _greedy(phraser(list(fixed)), vocab.known, max_words)
+        for key, typed in zip(keys, _spans(toks, keys), strict=True):
+            written = typed if typed != key.replace(PHRASE_JOINER, " ") else ""
+            pieces.append(_classify(key, vocab, key.split(PHRASE_JOINER), written))
         if budget <= 0:
             break
     return pieces

@@ -33,6 +33,7 @@ __all__ = [
     "key_of_text",
     "words_in",
     "in_windows",
+    "is_number",
     "form",
     "same_form",
 ]
@@ -66,14 +67,18 @@ _TOKEN = re.compile(
 )
 
 
+_SHOUTED_ENTITY = re.compile(r"&[A-Z][A-Z]+;")
+
+
 def normalise(text: str) -> str:
     """Markup-free, entity-decoded, NFKC, case-folded text; block tags become line breaks."""
     text = _SCRIPT.sub(" ", text)
     text = _BLOCK_TAG.sub("\n", text)
     text = _ANY_TAG.sub(" ", text)
-    # Entities may be double-encoded in reposted postings ("&amp;amp;").
+    # Entities may be double-encoded in reposted postings ("&amp;amp;"), and shouted in a title
+    # written in capitals after the markup ("&POUND;"), which HTML's own names do not cover.
     for _ in range(2):
-        decoded = html.unescape(text)
+        decoded = html.unescape(_SHOUTED_ENTITY.sub(lambda m: m.group(0).lower(), text))
         if decoded == text:
             break
         text = decoded
@@ -124,11 +129,18 @@ def _compound(word: str) -> list[str]:
     return [part for part in _COMPOUND.split(word) if part]
 
 
-_NUMBER = re.compile(r"^\d[\d.,:]*$")
+# A number, alone or with a unit glued on ("24,500", "2026", "12.40ph", "37.5hrs", "40k"); an ordinal
+# (1st, 2nd) is a word of the trade ("1st line support") and not a number here.
+_NUMBER = re.compile(r"^\d[\d.,:]*(?!st$|nd$|rd$|th$)[a-z]{0,3}$")
+
+
+def is_number(token: str) -> bool:
+    """A number, alone or with a short unit glued on; not an ordinal, not a trade token (24/7, c+e)."""
+    return bool(_NUMBER.match(token))
 
 
 def in_windows(entry: str) -> bool:
-    """Whether skip-gram sees an entry: not a bare number ("24,500", "2026") nor a single character.
+    """Whether skip-gram sees an entry: not a number (with or without a unit) nor a single character.
 
     Numbers and lone letters carry no meaning of their own in a window and crowd out the words
     around them; trade tokens (c++, c#, 24/7, c+e, 1st) and phrases holding a number ("class 1")

@@ -14,6 +14,7 @@ holds up /v1/expand on the event loop.
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 from urllib.parse import parse_qs, quote, unquote, urlencode
@@ -24,13 +25,13 @@ from jinja2 import Environment, FileSystemLoader, select_autoescape
 from starlette.concurrency import run_in_threadpool
 
 from service.review.access import REVIEWER_COOKIE, SESSION_COOKIE, ReviewAccess
-from service.review.views import SegmentView, compare_view, phrase_view
+from service.review.views import compare_view, phrase_view
 from service.routes import State
 from service.state import ServiceState
 from widen.decisions import Decision
 from widen.errors import BundleError, DecisionError
 from widen.expansion import expand
-from widen.query_text import baseline_text, merged_text
+from widen.query_text import baseline_text
 
 __all__ = ["router"]
 
@@ -106,10 +107,7 @@ def _phrase_page(
     options = serving.options
     result, views = phrase_view(serving.lexicon, state.decisions, q, options)
     active = state.decision_store.entries()
-    views = [
-        SegmentView(v.index, v.text, v.kind, v.candidates, v.map, [d for d in active if d.phrase == v.text])
-        for v in views
-    ]
+    views = [replace(v, decisions=[d for d in active if d.phrase == v.text]) for v in views]
     values.update(result=result, views=views)
     if compare and compare != serving.version:
         try:
@@ -122,7 +120,7 @@ def _phrase_page(
         plain = baseline_text(result, options.operator)
         try:
             plain_hits = index.search(plain, 10)
-            expanded_hits = index.search(merged_text(plain, result.query_text), 10)
+            expanded_hits = index.search(result.full_query, 10)
             matched = index.matching(plain)
             values["preview"] = {
                 "plain": plain_hits,

@@ -64,6 +64,8 @@ class SegmentView:
     candidates: list[Candidate]
     map: list[MapPoint] = field(default_factory=list)
     decisions: list[Decision] = field(default_factory=list)
+    field: str | None = None
+    corrected: str | None = None
 
 
 def _vector(lex: Lexicon, phrase: str) -> np.ndarray[Any, Any] | None:
@@ -131,7 +133,7 @@ def phrase_view(
         ]
         rows.sort(key=lambda c: (-c.similarity, c.phrase))
         points = neighbour_map(lex, segment.text, rows[:MAP_POINTS]) if rows else []
-        views.append(SegmentView(s, segment.text, segment.kind, rows, points))
+        views.append(SegmentView(s, segment.text, segment.kind, rows, points, [], segment.field, segment.corrected))
     return result, views
 
 

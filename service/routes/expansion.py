@@ -39,7 +39,12 @@ def expand_one(state: ServiceState, query: str, asked: RequestOptions, field: st
         raise ApiError(503, "not_ready", state.not_ready_reason)
     _check_query(query, field, state.settings.max_query_chars, serving.options.max_tokens)
     options = serving.options.with_request(
-        max=asked.max, min_similarity=asked.min_similarity, original_boost=asked.original_boost, operator=asked.operator
+        max=asked.max,
+        min_similarity=asked.min_similarity,
+        original_boost=asked.original_boost,
+        operator=asked.operator,
+        places=asked.places,
+        match=asked.match,
     )
     return expand(serving.lexicon, state.decisions, query, options, explain=asked.explain)
 
@@ -61,6 +66,8 @@ def _cached(state: ServiceState, query: str, asked: RequestOptions, field: str, 
         asked.explain,
         asked.original_boost,
         asked.operator,
+        asked.places,
+        asked.match,
     )
     found = state.cache.get(key)
     if found is None:
@@ -82,10 +89,22 @@ async def expand_get(
     explain: bool = False,
     original_boost: float | None = Query(default=None, gt=0.0, le=100.0),
     operator: Literal["AND", "OR"] | None = None,
+    places: Literal["text", "field"] | None = Query(
+        default=None, description="a place or employer in the free text, or in its own field of the index"
+    ),
+    match: Literal["job", "all"] | None = Query(
+        default=None, description="job: only the job is required; all: every segment but noise words"
+    ),
 ) -> Response:
     """Expand one query; the result model is the same as the CLI's JSON."""
     asked = RequestOptions.model_construct(
-        max=max, min_similarity=min_similarity, explain=explain, original_boost=original_boost, operator=operator
+        max=max,
+        min_similarity=min_similarity,
+        explain=explain,
+        original_boost=original_boost,
+        operator=operator,
+        places=places,
+        match=match,
     )
     return _cached(state, q, asked, "q", bool(request.scope.get("widen.edge_caches")))
 

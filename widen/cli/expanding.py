@@ -24,7 +24,11 @@ def expand(args: argparse.Namespace) -> int:
     lexicon = Lexicon(store.open_bundle(args.bundle))
     try:
         options = lexicon.options.with_request(
-            max=args.max, min_similarity=args.min_similarity, strict=True if args.strict else None
+            max=args.max,
+            min_similarity=args.min_similarity,
+            strict=True if args.strict else None,
+            places=args.places,
+            match=args.match,
         )
     except ValidationError as exc:
         raise BadInput(str(exc.errors()[0]["msg"]) + f" ({exc.errors()[0]['loc'][0]})") from exc

@@ -107,6 +107,12 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--max", type=int, help="at most this many expansions a segment (default 5)")
     p.add_argument("--min-similarity", type=float, help="drop neighbours below this cosine (default 0.7)")
     p.add_argument("--strict", action="store_true", help="leave out neighbours hinted as a related, different job")
+    p.add_argument(
+        "--places", choices=["text", "field"], help="a place or employer in the free text (default) or its field"
+    )
+    p.add_argument(
+        "--match", choices=["job", "all"], help="require only the job (default) or every segment but noise words"
+    )
     p.set_defaults(handler=expanding.expand)
 
     p = sub.add_parser(

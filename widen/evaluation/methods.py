@@ -8,16 +8,16 @@ Each method is a query a front end could send to the same index, for the same se
   stemming: what a search engine does by default, the strongest plain baseline;
 - `rm3`: RM3 pseudo-relevance feedback on the bag of words (`widen.evaluation.rm3`), and
   `rm3_merged`, merged the way widen is: `(all_required)^10 OR (rm3)`;
-- `widen`: the recommended merge, `(all_required)^10 OR (query_text)`; `widen_alone`, query_text
-  as it is; `bag_of_words_widen`, widen's clauses added to a front end's own bag of words,
-  `(bag_of_words)^10 OR (query_text)`;
+- `widen`: the recommended query, widen's `full_query`: `(all_required)^10 OR (query_text) OR
+  (words)^0.1`; `widen_alone`, query_text as it is; `bag_of_words_widen`, widen's clauses added to a
+  front end's own bag of words, `(bag_of_words)^10 OR (query_text)`;
 - `curated`: a perfect hand-kept list of each job's equivalent titles (the board's truth) in
   place of widen's neighbours, merged the same way: an upper bound for a synonym list.
 """
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from typing import Any
 
 import tantivy
@@ -25,7 +25,7 @@ import tantivy
 from widen.evaluation.index import SearchIndex
 from widen.evaluation.rm3 import RM3
 from widen.options import ExpansionOptions
-from widen.query_text import BASELINE_BOOST, baseline_text, merged_text, render
+from widen.query_text import BASELINE_BOOST, JOBS, baseline_text, merged_text, render
 from widen.result import Clause, ExpansionResult
 from widen.text import phrase_of, tokens
 
@@ -37,7 +37,7 @@ METHODS: dict[str, str] = {
     "bag_of_words": "plain bag of words: the query's words as optional terms, stemmed (the engine's default)",
     "rm3": "RM3 pseudo-relevance feedback on the bag of words",
     "rm3_merged": "(all required)^10 OR (RM3)",
-    "widen": "widen, the recommended merge: (all required)^10 OR (query_text)",
+    "widen": "widen's full_query: (all required)^10 OR (query_text) OR (words)^0.1",
     "widen_alone": "widen's query_text alone",
     "bag_of_words_widen": "(bag of words)^10 OR (query_text): widen added to a front end's own query",
     "curated": "a perfect hand-kept list of each job's titles, merged like widen (upper bound)",
@@ -61,16 +61,21 @@ class CuratedList:
             for title in titles:
                 self.synonyms.setdefault(title, []).extend(t for t in titles if t != title)
 
-    def query_text(self, result: ExpansionResult, operator: str) -> str:
-        """widen's query text with each segment's neighbours replaced by the list's titles for it."""
+    def query_text(
+        self, result: ExpansionResult, options: ExpansionOptions, names: Mapping[str, tuple[str, str]]
+    ) -> str:
+        """widen's query text with each job segment's neighbours replaced by the list's titles for it."""
         clauses: list[Clause] = []
         for s, segment in enumerate(result.segments):
+            if segment.kind == "noise":
+                continue
             clauses.append(Clause(phrase=segment.text, weight=1.0, original=True, segment=s))
-            clauses += [
-                Clause(phrase=other, weight=self.weight, original=False, segment=s)
-                for other in self.synonyms.get(segment.text, [])
-            ]
-        return render(clauses, len(result.segments), operator)
+            if segment.kind in JOBS:
+                clauses += [
+                    Clause(phrase=other, weight=self.weight, original=False, segment=s)
+                    for other in self.synonyms.get(segment.text, [])
+                ]
+        return render(clauses, result.segments, options, names)
 
 
 def _merged(index: SearchIndex, first: tantivy.Query | None, then: tantivy.Query | None) -> tantivy.Query | None:
@@ -87,6 +92,7 @@ def method_queries(
     rm3: RM3,
     curated: CuratedList | None,
     methods: Sequence[str] = tuple(METHODS),
+    names: Mapping[str, tuple[str, str]] | None = None,
 ) -> tuple[dict[str, tantivy.Query | None], str]:
     """The query of every method for one seeker's text, and the all-required text (the exact match)."""
 
@@ -98,7 +104,7 @@ def method_queries(
     built: dict[str, tantivy.Query | None] = {
         "all_required": parse(exact),
         "bag_of_words": parse(bow),
-        "widen": parse(merged_text(exact, result.query_text)),
+        "widen": parse(result.full_query),
         "widen_alone": parse(result.query_text),
         "bag_of_words_widen": parse(merged_text(bow, result.query_text)),
     }
@@ -107,5 +113,5 @@ def method_queries(
         built["rm3"] = rm3.query(index, plain, bow) if plain is not None else None
         built["rm3_merged"] = _merged(index, built["all_required"], built["rm3"])
     if curated is not None and "curated" in methods:
-        built["curated"] = parse(merged_text(exact, curated.query_text(result, options.operator)))
+        built["curated"] = parse(merged_text(exact, curated.query_text(result, options, names or {})))
     return {m: built.get(m) for m in methods if m in built}, exact

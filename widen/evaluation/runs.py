@@ -92,8 +92,12 @@ def evaluate(
     truth: dict[str, Any] | None = None,
     rm3: RM3 | None = None,
     methods: Sequence[str] | None = None,
+    places: str = "field",
 ) -> dict[str, Any]:
-    """Run every method for every judged query: means, per kind, per family, significance, and the runs."""
+    """Run every method for every judged query: means, per kind, per family, significance, and the runs.
+
+    widen's query names places in the index's own fields (`places = "field"`): the index has them."""
+    options = options.with_request(places=places)
     chosen = [m for m in (methods or METHODS) if m != "curated" or truth is not None]
     curated = CuratedList(truth) if truth is not None else None
     feedback = rm3 or RM3()
@@ -108,7 +112,7 @@ def evaluate(
             continue
         qrels[q.id] = relevant
         result = expand(lexicon, decisions, q.query, options)
-        built, exact_text = method_queries(index, q.query, result, options, feedback, curated, chosen)
+        built, exact_text = method_queries(index, q.query, result, options, feedback, curated, chosen, lexicon.names)
         exact = index.matching(exact_text) if exact_text else set()
         row: dict[str, Any] = {"id": q.id, "query": q.query, "family": q.family, "kind": q.kind, "base": q.base}
         for method in chosen:
