@@ -6,7 +6,7 @@ DEMO := build/demo
 STORE := build/store
 POSTINGS ?= 20000
 
-.PHONY: demo test lint bench evaluate ablation clean
+.PHONY: demo test lint bench evaluate choices ablation clean
 
 # The venv is (re)built when pyproject.toml changes.
 $(BIN)/.installed: pyproject.toml
@@ -50,6 +50,10 @@ bench: $(BIN)/.installed $(DEMO)/postings.jsonl
 # Both demo boards at full size, every method, the index window curve and the truth scorecard (README, "Search impact").
 evaluate: $(BIN)/.installed
 	$(BIN)/python -m bench.boards --out build/boards
+
+# Every way of building the query a front end sends, on both boards (README, "How widen builds the query").
+choices: $(BIN)/.installed
+	$(BIN)/python -m bench.choices --out build/choices
 
 # widen's vectors on the real text gensim ships, stage by stage against gensim direct (README, "Real text").
 ablation: $(BIN)/.installed

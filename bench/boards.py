@@ -26,7 +26,7 @@ from widen.evaluation.scorecard import scorecard
 from widen.lexicon import Lexicon
 from widen.store import Store
 
-__all__ = ["main"]
+__all__ = ["main", "prepare", "board"]
 
 WINDOWS = "7,14,30,60"
 
@@ -37,7 +37,9 @@ def _widen(*args: str) -> subprocess.CompletedProcess[str]:
     )
 
 
-def board(name: str, out: Path, postings: int, seed: int) -> dict[str, Any]:
+def prepare(name: str, out: Path, postings: int, seed: int) -> tuple[Path, Path, bool]:
+    """Generate the board's dump and train a bundle on it with the default config; when the gate refuses
+    it, serve it anyway (`promote --force`): the figures say how good it is. Returns (data, store, forced)."""
     data, store = out / name / "data", out / name / "store"
     generate(data, postings, seed, board=name)
     trained = _widen(
@@ -49,6 +51,13 @@ def board(name: str, out: Path, postings: int, seed: int) -> dict[str, Any]:
     forced = trained.returncode == 3
     if forced:
         _widen("promote", version, "--store", str(store), "--force")
+    return data, store, forced
+
+
+def board(name: str, out: Path, postings: int, seed: int) -> dict[str, Any]:
+    data, store, forced = prepare(name, out, postings, seed)
+    version = Store(store).current_version()
+    assert version is not None
     gate = Store(store).manifest(version)["gate"]
     common = ["--store", str(store), "--queries", str(data / "queries.jsonl"), "--truth", str(data / "truth.json")]
     for args in (

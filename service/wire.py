@@ -38,7 +38,7 @@ class RequestOptions(BaseModel):
         default=None, description="a place or employer in the free text, or in its own field of the index"
     )
     match: Literal["job", "all"] | None = Field(
-        default=None, description="job: only the job is required; all: every segment but noise words"
+        default=None, description="all (default): every segment but noise words is required; job: only the job"
     )
 
 

@@ -143,7 +143,9 @@ def test_cli_decide_decisions_and_expand(store_copy: Path, tmp_path: Path, capsy
     assert 0.5 < pinned[0]["similarity"] < 1.0  # the model's own cosine, shown beside the pin
     assert main(["expand", "lorry driver", "--store", s, "--explain"]) == 0
     table = capsys.readouterr().out
-    assert "dropped:" in table and "broader_than_original" in table and "query text:" in table
+    assert "dropped:" in table and "query text:" in table
+    # Each drop with its reason code and the reason in words (a code and its meaning from one table).
+    assert "different_duties" in table and "posted with other duties than the phrase" in table
     export = tmp_path / "decisions.json"
     assert main(["decisions", "--store", s, "--export", str(export)]) == 0
     assert main(["decide", "withdraw", "1", "--store", s, "--reviewer", "ana"]) == 0

@@ -186,10 +186,10 @@ def test_curated_list_replaces_neighbours_with_the_truth(trained_store: Path, de
     result = expand(lexicon, DecisionSet(), "lorry driver jobs hensby", lexicon.options)
     text = curated.query_text(result, lexicon.options.with_request(places="field"), lexicon.names)
     # The job's group holds the list's titles in place of the neighbours; the place stays as widen
-    # writes it (here in its field); the noise word has no clause, as in widen's own query.
+    # writes it (here in its field, required); the noise word has no clause, as in widen's own query.
     assert text == (
         '+("lorry driver"^1 OR "hgv driver"^0.5 OR "class 1 driver"^0.5 OR "c+e driver"^0.5 OR "truck driver"^0.5)'
-        ' location:"Hensby"^1'
+        ' +location:"Hensby"^1'
     )
 
 

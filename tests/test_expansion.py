@@ -161,9 +161,13 @@ def test_shift_patterns_match_only_their_own_spellings_and_noise_is_dropped(lexi
     assert pattern.pattern == "nights" and pattern.expansions
     assert {e.source for e in pattern.expansions} == {"pattern"}
     assert {e.phrase for e in pattern.expansions} <= set(DEFAULTS.patterns["nights"]) - {"night shift"}
-    # ...and the job in the same query is still expanded, and is the only part required.
+    # ...and the job in the same query is still expanded. By default (match=all) the pattern's group
+    # is required too, any of its spellings; with match=job only the job's group is.
     assert any(s.text == "staff nurse" and s.expansions for s in result.segments)
-    assert result.query_text.count("+") == 1 and '+("staff nurse"^1' in result.query_text
+    assert result.query_text.count("+") == 2 and '+("night shift"^1' in result.query_text
+    job_only = expand(lexicon, NONE, "night shift jobs of the staff nurse", DEFAULTS.with_request(match="job"))
+    assert job_only.query_text.count("+") == 1 and '+("staff nurse"^1' in job_only.query_text
+    assert '("night shift"^1' in job_only.query_text
 
 
 def test_explain_gives_a_reason_for_every_dropped_neighbour(lexicon: Lexicon) -> None:
@@ -171,8 +175,12 @@ def test_explain_gives_a_reason_for_every_dropped_neighbour(lexicon: Lexicon) ->
     segment = result.segments[0]
     assert segment.dropped is not None
     reasons = {d.reason for d in segment.dropped}
-    assert "broader_than_original" in reasons  # "driver" alone is broader than "lorry driver"
     assert "different_duties" in reasons  # another job's title, posted with other duties
+    assert "not_a_title" in reasons  # a word of the postings ("trunking"), not a job
+    # A drop said to be broader is made of fewer of the phrase's words ("driver" of "lorry driver").
+    assert all(
+        set(d.phrase.split()) < {"lorry", "driver"} for d in segment.dropped if d.reason == "broader_than_original"
+    )
     # Every candidate once: the skip-gram table's first 50, and the titles with the most alike duties.
     seen = [e.phrase for e in segment.expansions] + [d.phrase for d in segment.dropped]
     assert len(seen) == len(set(seen)) and len(seen) >= DEFAULTS.candidates
@@ -244,7 +252,9 @@ def test_operator_joins_segments(lexicon: Lexicon) -> None:
     text = expand(lexicon, NONE, "kitchen porter hensby", ExpansionOptions(operator="OR")).query_text
     assert text.endswith(' "hensby"^1') and "+" not in text  # nothing required
     required = expand(lexicon, NONE, "kitchen porter hensby", DEFAULTS).query_text
-    assert required.startswith('+("kitchen porter"^1 OR ') and required.endswith(') "hensby"^1')
+    assert required.startswith('+("kitchen porter"^1 OR ') and required.endswith(') +"hensby"^1')
+    job_only = expand(lexicon, NONE, "kitchen porter hensby", DEFAULTS.with_request(match="job")).query_text
+    assert job_only.startswith('+("kitchen porter"^1 OR ') and job_only.endswith(') "hensby"^1')
 
 
 def test_response_cache_is_an_lru_keyed_on_decisions(lexicon: Lexicon) -> None:

@@ -9,6 +9,7 @@ import pytest
 import tantivy
 
 from widen.decisions import DecisionSet
+from widen.evaluation.index import SearchIndex
 from widen.expansion import expand
 from widen.lexicon import Lexicon
 from widen.options import ExpansionOptions
@@ -82,6 +83,32 @@ def test_every_demo_query_parses(lexicon: Lexicon, index: tantivy.Index, demo_di
     for q in queries:
         text = expand(lexicon, DecisionSet(), q, ExpansionOptions()).query_text
         index.parse_query(text, ["title", "description"])  # raises ValueError on a syntax error
+
+
+@pytest.fixture(scope="module")
+def fielded(demo_dir: Path, tmp_path_factory: pytest.TempPathFactory) -> SearchIndex:
+    """widen's evaluation index: title and description stemmed, location and employer as fields."""
+    return SearchIndex(demo_dir / "open_postings.jsonl", tmp_path_factory.mktemp("fielded") / "index")
+
+
+@pytest.mark.parametrize("places", ["text", "field"])
+@pytest.mark.parametrize("match", ["job", "all"])
+def test_every_demo_query_parses_in_every_mode(
+    lexicon: Lexicon, fielded: SearchIndex, demo_dir: Path, places: str, match: str
+) -> None:
+    """query_text and full_query, for every way of building them, parse in tantivy with its fields."""
+    with (demo_dir / "queries.jsonl").open(encoding="utf-8") as fh:
+        queries = [json.loads(line)["query"] for line in fh]
+    options = lexicon.options.with_request(places=places, match=match)
+    fields = 0
+    for q in queries:
+        result = expand(lexicon, DecisionSet(), q, options)
+        for text in (result.query_text, result.full_query):
+            if text:
+                fielded.parse(text)  # raises ValueError on a syntax error or an unknown field
+        fields += 'location:"' in result.full_query
+    # Seeker-typed queries name towns: in their field only when asked for.
+    assert (fields > 0) == (places == "field")
 
 
 @pytest.mark.parametrize("hostile", HOSTILE)

@@ -117,7 +117,13 @@ class FirstPass:
     """
 
     def __init__(
-        self, corpus: PostingCorpus, scratch: Path, workers: int, out: IO[str], drop: frozenset[str], longest: int
+        self,
+        corpus: PostingCorpus,
+        scratch: Path,
+        workers: int,
+        out: IO[str],
+        drop: frozenset[str],
+        longest: int,
     ) -> None:
         self.corpus, self.scratch, self.workers, self.out = corpus, scratch, workers, out
         self.used = self.duplicates = self.tokens = 0

@@ -29,6 +29,7 @@ from training.gate import GateResult, Tables, decide, read_pairs, score_pairs, s
 from training.phrases import learn_phrases, phrase_filter
 from training.progress import Progress
 from training.skipgram import fit_skipgram, structure_problems
+from training.titles import is_short_number
 from widen.bundle import Bundle, BundleWriter, sha256_file
 from widen.clock import new_version, utc_stamp
 from widen.decision_stores import open_decision_store
@@ -250,13 +251,22 @@ def train(
 
             fragments = _fragments(in_titles)
 
+            modifiers = frozenset(config.expansion.modifiers)
+
             def is_title(entry: str) -> bool:
                 words = entry.split(PHRASE_JOINER)
+                lead = next((n for n, w in enumerate(words) if w not in modifiers), len(words))
+                rest = PHRASE_JOINER.join(words[lead:])
                 return (
                     entry not in protected
                     and entry not in fragments
                     and not all(w in decoration for w in words)
-                    and not any(map(is_number, words))
+                    and not is_number(words[0])
+                    and not is_number(words[-1])
+                    and all(not is_number(w) or is_short_number(w) for w in words)
+                    # a modifier glued to a piece of a title ("trainee_dental") is no title; glued
+                    # to a whole one ("senior_carer") it is
+                    and (lead == 0 or (rest in in_titles and rest not in fragments))
                 )
 
             duties = duty_table(scratch_dir / "postings.txt", model.wv.key_to_index, is_title, config.duties)

@@ -3,8 +3,9 @@
 "Part-Time Care Assistant - Oxmere | £12.10ph" and "CARE ASSISTANT - IMMEDIATE START!!" both
 name a care assistant. A title is cut at its separators (" - ", " | ", brackets, "!", ":"), and
 from each part the words that are not the job are taken out: the posting's own place and employer,
-shift patterns, noise words, modifiers ("senior", "trainee"), numbers. What is left, two words or
-more, is a title core; the frequent ones become vocabulary entries even where phrase mining did
+shift patterns, noise words, modifiers ("senior", "trainee"), numbers (but a short one inside:
+"class 1 driver"). What is left, two words or more, is a title core (with its leading modifiers, a
+second one); the frequent ones become vocabulary entries even where phrase mining did
 not join them, so a three-word title stays one segment ("early years practitioner").
 """
 
@@ -15,24 +16,42 @@ from collections.abc import Iterable
 
 from widen.text import PHRASE_JOINER, is_number, normalise, tokens
 
-__all__ = ["title_cores"]
+__all__ = ["title_cores", "is_short_number"]
 
 _SEPARATORS = re.compile(r"\s[-\u2013\u2014|/~]\s|[|()\[\]{}!?*:;,]")
 
 
+def is_short_number(token: str) -> bool:
+    """A number a title carries inside it ("class 1 driver", "band 5 nurse"): one or two digits."""
+    return token.isdigit() and len(token) <= 2
+
+
 def title_cores(title: str, drop: frozenset[str], own: Iterable[str], longest: int) -> list[str]:
     """The cores of one title as vocabulary keys. Parameters: the title as written; `drop`, words that
-    are never the job (patterns, noise); `own`, the posting's place and employer as written; `longest`,
-    the most words a core may have."""
+    are never the job (patterns, noise, modifiers); `own`, the posting's place and employer as
+    written; `longest`, the most words a core may have. A core is a run of the words left; a short
+    number inside a run stays in it ("class 1 driver").
+
+    Modifiers stay out of cores: a board that writes "Bank Order Picker" and "Senior Truck Driver"
+    for the same jobs would otherwise split each job into one entry per modifier (tried: on the
+    demo board the duties hint lost a third of its precision). Mining still forms a modifier
+    phrase that is frequent on its own ("senior carer")."""
     own_words = {w for value in own for w in tokens(value)}
-    cores = []
+    cores: list[str] = []
+
+    def emit(run: list[str]) -> None:
+        while run and is_short_number(run[-1]):
+            run = run[:-1]
+        if 2 <= len(run) <= longest:
+            cores.append(PHRASE_JOINER.join(run))
+
     for part in _SEPARATORS.split(normalise(title)):
         run: list[str] = []
         for token in [*tokens(part), ""]:
-            if token and token not in drop and token not in own_words and not is_number(token):
+            keep = token and token not in drop and token not in own_words
+            if keep and (not is_number(token) or (run and is_short_number(token))):
                 run.append(token)
                 continue
-            if 2 <= len(run) <= longest:
-                cores.append(PHRASE_JOINER.join(run))
+            emit(run)
             run = []
     return cores

@@ -152,9 +152,11 @@ def _expand_piece(
     own_form = form(text, stop)
     dropped: list[Dropped] = []
     floor = options.related_duties * (lex.split_half or 0.0)
-    # A title with a duties profile is compared with other titles by their duties; a neighbour with
-    # no profile of its own is no title the dump posts often enough to tell its duties.
-    titled = any(c.duties is not None for c in found)
+    apart = lex.apart(options.apart_quantile()) or 0.0
+    # In a bundle with duties profiles, a neighbour with no profile of its own is no title the dump
+    # posts often enough to tell its duties: a word of the postings' text ("hold", "category" for
+    # "driver"), not another name for a job. A title with a profile is compared by duties.
+    titled = lex.split_half is not None
     for c in found:
         if model_kept >= model_slots and not explain:
             break  # nothing more can be kept, and nobody asked why not
@@ -167,6 +169,8 @@ def _expand_piece(
             reason = "number_or_stop_word"
         elif c.duties is None and c.similarity < options.min_similarity:
             reason = "below_min_similarity"
+        elif c.duties is None and c.similarity < apart:
+            reason = "like_different_jobs"
         elif e.phrase in said.blocked:
             reason = "blocked"
         elif e.phrase in pinned:
@@ -187,7 +191,7 @@ def _expand_piece(
             reason = "off_query"
         elif c.duties is not None and c.duties < floor:
             reason = "different_duties"
-        elif c.duties is None and titled:
+        elif titled and c.duties is None and not lex.has_duties(c.entry):
             reason = "not_a_title"
         elif own_share >= options.title_share > c.title_share:
             reason = "kind_mismatch"

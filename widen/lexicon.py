@@ -68,6 +68,8 @@ class Lexicon:
         duties = (bundle.manifest.get("duties") or {}).get("split_half")
         #: The bundle's own cosine of "same job" between two duties profiles; None without duties.
         self.split_half: float | None = float(duties) if duties and bundle.duty_rows is not None else None
+        #: How close two titles with different duties are in skip-gram space in this bundle, by quantile.
+        self._apart: dict[float, float | None] = {}
         #: Every word of every place and employer name.
         self.name_words: frozenset[str] = frozenset(w for k in self.protected for w in k.split(PHRASE_JOINER))
         self._entries: dict[tuple[int, frozenset[str]], Entry] = {}
@@ -112,6 +114,35 @@ class Lexicon:
     def has_duties(self, j: int) -> bool:
         rows = self.bundle.duty_rows
         return rows is not None and self.split_half is not None and bool(rows[j] >= 0)
+
+    def apart(self, quantile: float) -> float | None:
+        """The input cosine that `quantile` of the pairs of titles with different duties stay under in this
+        bundle: how close two different jobs look to the skip-gram model of this dump. None without
+        duties. Pairs are different when neither is among the other's titles with alike duties (at
+        least `related_duties` of the split-half cosine); at most 2,000 titles are looked at."""
+        if quantile not in self._apart:
+            self._apart[quantile] = self._different_jobs_cosine(quantile)
+        return self._apart[quantile]
+
+    def _different_jobs_cosine(self, quantile: float) -> float | None:
+        rows = self.bundle.duty_rows
+        if rows is None or self.split_half is None:
+            return None
+        titles = np.flatnonzero(np.asarray(rows) >= 0)[:2000]
+        if len(titles) < 3:
+            return None
+        position = {int(j): n for n, j in enumerate(titles.tolist())}
+        floor = self.options.related_duties * self.split_half
+        close = np.eye(len(titles), dtype=bool)
+        for n, j in enumerate(titles.tolist()):
+            for k, s in self.duty_neighbours(j).items():
+                m = position.get(k)
+                if m is not None and s >= floor:
+                    close[n, m] = close[m, n] = True
+        vectors = np.asarray(self.normed[titles], dtype=np.float32)
+        cosines = vectors @ vectors.T
+        apart = cosines[~close]
+        return float(np.quantile(apart, quantile)) if apart.size else None
 
     # -- the words segmentation knows ---------------------------------------------------------
 

@@ -83,6 +83,11 @@ class ExpansionOptions(BaseModel):
     # equivalent at or above `equivalent_duties`, related down to `related_duties`, dropped below.
     equivalent_duties: float = Field(default=0.75, gt=0.0, le=1.0)
     related_duties: float = Field(default=0.3, ge=0.0, le=1.0)
+    # Where a pair has no duties profiles, a neighbour must also be closer than two titles with
+    # different duties are in this bundle, at the quantile that lets through, by chance, this many
+    # different jobs among the `candidates` looked at: 1 - chance_neighbours / candidates (worked out
+    # at load from the bundle's own titles; high on a dump whose templates make every title look alike).
+    chance_neighbours: float = Field(default=0.5, ge=0.0, le=50.0)
     # The relation hint where a pair has no duties profiles: equivalent needs both.
     equivalent_similarity: float = Field(default=0.8, ge=-1.0, le=1.0)
     equivalent_in_out: float = Field(default=-0.15, ge=-1.0, le=1.0)
@@ -97,9 +102,13 @@ class ExpansionOptions(BaseModel):
     places: Literal["text", "field"] = "text"
     # The index's field for each of the dump's protected fields, where the names differ.
     field_names: dict[str, str] = Field(default_factory=dict)
-    # `job`: only the job is required; places, patterns and modifiers only score; noise words are
-    # dropped. `all`: every segment but noise words is required (what widen did before it knew kinds).
-    match: Literal["job", "all"] = "job"
+    # Which segments query_text requires; noise words are dropped either way. `all`: every other
+    # segment (the job through its expansions, a place, a shift pattern through its spellings, a
+    # modifier). `job`: only the job; places, patterns and modifiers only score. full_query keeps
+    # the seeker's words as optional terms after both, so neither loses a posting the engine's
+    # default query finds; `all` ranks those that match everything first (measured best on the demo
+    # board, held on the second: README, "How widen builds the query").
+    match: Literal["job", "all"] = "all"
     # Offer a correction for a word the bundle has never seen (a known word is never corrected).
     spelling: bool = True
     candidates: int = Field(default=50, ge=1, le=1000)
@@ -130,6 +139,10 @@ class ExpansionOptions(BaseModel):
         if not update:
             return self
         return ExpansionOptions.model_validate({**self.model_dump(), **update})
+
+    def apart_quantile(self) -> float:
+        """The quantile of different jobs' cosines a neighbour with no duties profile must pass."""
+        return max(0.0, 1.0 - self.chance_neighbours / self.candidates)
 
     def pattern_words(self) -> frozenset[str]:
         """Every word of every pattern spelling ("part", "time", "p/t", "nights"...)."""

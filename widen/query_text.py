@@ -3,14 +3,16 @@
 Every clause is a quoted phrase with a `^` boost; quotes and backslashes cannot reach inside
 one, so no input breaks the engine's parser. Inside quotes the parser reads no operators.
 
-widen's query text is built the way engines search: the job is required, `+(...)`, through its
-clauses (the seeker's words, their correction, the neighbours) OR'ed in one group; a place, an
-employer, a shift pattern or a modifier only scores (no mark: the engine's optional clause), so a
-posting that spells the pattern otherwise, or names no town in its text, is still found; noise
-words ("jobs", "near") are left out. A place or employer is written into the free text
-(`places = "text"`) or into its own field of the index (`places = "field"`: `location:"Hensby"`),
-where agency boilerplate that lists every town cannot match it. `match = "all"` requires every
-segment but noise words. This is the syntax of Lucene's classic query parser, which tantivy,
+widen's query text groups each segment's clauses (the seeker's words, their correction, the
+neighbours, a pattern's other spellings) OR'ed in one group, and marks a group required, `+(...)`.
+With `match = "all"` (the default) every group is required: the job, a place, a shift pattern
+(any of its spellings), a modifier; with `match = "job"` only the job's, and the others only
+score (no mark: the engine's optional clause). Noise words ("jobs", "near") are left out. A place
+or employer is written into the free text (`places = "text"`) or into its own field of the index
+(`places = "field"`: `location:"Hensby"`), where agency boilerplate that lists every town cannot
+match it. `full_query` puts the seeker's words, all required and boosted, first, and the same words
+as optional terms last, so a posting that spells the pattern otherwise or names no town is still
+found, below those that match. This is the syntax of Lucene's classic query parser, which tantivy,
 Elasticsearch's query_string and Solr's standard parser read alike (common practice, no source).
 """
 

@@ -29,6 +29,7 @@ DropReason = Literal[
     "protected",
     "number_or_stop_word",
     "below_min_similarity",
+    "like_different_jobs",
     "blocked",
     "pinned",
     "same_as_original",
@@ -53,6 +54,7 @@ DROP_REASONS: dict[str, str] = {
     "protected": "a place or employer name of the dump; never offered",
     "number_or_stop_word": "only numbers or stop words",
     "below_min_similarity": "similarity under the floor",
+    "like_different_jobs": "no closer than two different jobs usually are in this bundle",
     "blocked": "blocked by a reviewer",
     "pinned": "already pinned by a reviewer",
     "same_as_original": "the same words in another spelling",
@@ -60,7 +62,7 @@ DROP_REASONS: dict[str, str] = {
     "narrower_than_query": "a narrower job than the query names, for a word that is only part of its title",
     "off_query": "far from the whole query, for a word that is only part of its title",
     "different_duties": "posted with other duties than the phrase: a different job",
-    "not_a_title": "not a title posted often enough to tell its duties, while the phrase is one",
+    "not_a_title": "not a title posted often enough to tell its duties: a word of the postings, not a job",
     "modifier_only": "only a modifier, or differs only by one (senior, nights...)",
     "kind_mismatch": "rarely a job title, while the phrase is one",
     "used_alongside": "used beside the phrase (its context), not instead of it",
@@ -133,7 +135,8 @@ class ExpansionResult(_Frozen):
     clauses: list[Clause]
     query_text: str = Field(
         description="the clauses in the engine's syntax: quoted phrases with ^boosts, a job's clauses OR'ed "
-        "in one group marked + (required), places, patterns and modifiers without a mark (they only score)"
+        "in one group marked + (required); a place, pattern or modifier also required (match=all, the default) or "
+        "without a mark, only scoring (match=job); noise words left out"
     )
     full_query: str = Field(
         default="",

@@ -3,11 +3,11 @@
 The query goes through the one tokeniser; a word the bundle has never seen (not in its vocabulary,
 not a place or employer name, not a word widen knows the role of) gets a spelling correction from
 the vocabulary, when one is close enough. The corrected words go through the bundle's phrase
-passes, then neighbouring entries are joined by greedy longest match (up to `max_words` words)
-against the vocabulary, the protected names and the shift patterns. Text in double quotes is kept
-as one segment. Each segment has a kind:
+passes (a modifier glued to the first word of a title is split off again), then neighbouring
+entries are joined by greedy longest match (up to `max_words` words) against the vocabulary, the
+protected names and the shift patterns. Text in double quotes is kept as one segment. Each segment has a kind:
 
-- `phrase`, `term`: a job (an entry of the vocabulary), the only kinds the query requires;
+- `phrase`, `term`: a job (an entry of the vocabulary), which the query always requires;
 - `unknown`: not in the vocabulary (composed from its words when they are, and quoted);
 - `noise`: words that name no job ("jobs", "near", "in"), dropped from the query;
 - `place`, `employer`, `protected`: a name from the dump's fields (`field` says which);
@@ -87,6 +87,27 @@ def _greedy(entries: Sequence[str], known: Callable[[str], bool], max_words: int
     return out
 
 
+def _unglue(entries: list[str], vocab: Vocabulary) -> list[str]:
+    """A mined phrase that glued a modifier to the first word of a title ("trainee_dental" + "nurse")
+    is split back when the rest and the next entry are a known entry ("trainee" + "dental_nurse")
+    and the whole is not."""
+    out = list(entries)
+    i = 0
+    while i < len(out) - 1:
+        words = out[i].split(PHRASE_JOINER)
+        lead = 0
+        while lead < len(words) - 1 and words[lead] in vocab.modifiers:
+            lead += 1
+        if lead:
+            rest = PHRASE_JOINER.join([*words[lead:], out[i + 1]])
+            whole = PHRASE_JOINER.join([out[i], out[i + 1]])
+            if vocab.known(rest) and not vocab.known(whole):
+                out[i : i + 2] = [*words[:lead], rest]
+                i += lead
+        i += 1
+    return out
+
+
 def _classify(key: str, vocab: Vocabulary, parts: Sequence[str], typed: str) -> Piece:
     words = key.split(PHRASE_JOINER)
     if key in vocab.spellings:
@@ -154,7 +175,7 @@ def segment_query(
             typed = " ".join(toks) if fixed != toks else ""
             pieces.append(_classify(key, vocab, _greedy(phraser(list(fixed)), vocab.known, max_words), typed))
             continue
-        keys = _greedy(phraser(list(fixed)), vocab.known, max_words)
+        keys = _greedy(_unglue(phraser(list(fixed)), vocab), vocab.known, max_words)
         for key, typed in zip(keys, _spans(toks, keys), strict=True):
             written = typed if typed != key.replace(PHRASE_JOINER, " ") else ""
             pieces.append(_classify(key, vocab, key.split(PHRASE_JOINER), written))

@@ -93,7 +93,7 @@ async def expand_get(
         default=None, description="a place or employer in the free text, or in its own field of the index"
     ),
     match: Literal["job", "all"] | None = Query(
-        default=None, description="job: only the job is required; all: every segment but noise words"
+        default=None, description="all (default): every segment but noise words is required; job: only the job"
     ),
 ) -> Response:
     """Expand one query; the result model is the same as the CLI's JSON."""

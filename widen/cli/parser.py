@@ -111,7 +111,7 @@ def build_parser() -> argparse.ArgumentParser:
         "--places", choices=["text", "field"], help="a place or employer in the free text (default) or its field"
     )
     p.add_argument(
-        "--match", choices=["job", "all"], help="require only the job (default) or every segment but noise words"
+        "--match", choices=["job", "all"], help="require every segment but noise words (default) or only the job"
     )
     p.set_defaults(handler=expanding.expand)
 
@@ -133,7 +133,11 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--queries", type=Path, required=True, help="labelled queries, JSON Lines")
     p.add_argument("--out", type=Path, required=True, help="folder for report.json, report.md, runs, plots")
     p.add_argument("--k", default="10,100", help="recall cut-offs, comma separated (default 10,100)")
-    p.add_argument("--truth", type=Path, help="the board's job families: adds the hand-kept list as an upper bound")
+    p.add_argument(
+        "--truth",
+        type=Path,
+        help="the board's job families: adds a perfect hand-kept list of each job's titles to compare",
+    )
     p.add_argument(
         "--days",
         help="index only the postings of the dump's last N days; several (7,14,30,60) draw the window curve",

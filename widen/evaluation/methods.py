@@ -1,4 +1,4 @@
-"""The queries `widen evaluate` compares: what a search team already has, widen, and an upper bound.
+"""The queries `widen evaluate` compares: what a search team already has, widen, and a hand-kept list.
 
 Each method is a query a front end could send to the same index, for the same seeker's text:
 
@@ -12,7 +12,9 @@ Each method is a query a front end could send to the same index, for the same se
   (words)^0.1`; `widen_alone`, query_text as it is; `bag_of_words_widen`, widen's clauses added to a
   front end's own bag of words, `(bag_of_words)^10 OR (query_text)`;
 - `curated`: a perfect hand-kept list of each job's equivalent titles (the board's truth) in
-  place of widen's neighbours, merged the same way: an upper bound for a synonym list.
+  place of widen's neighbours (its corrections and pattern spellings kept), merged the same way:
+  what a team's own synonym list of the same job would give. It is no upper bound on recall:
+  relevance also counts postings of related jobs (grade 1), which such a list leaves out.
 """
 
 from __future__ import annotations
@@ -40,7 +42,7 @@ METHODS: dict[str, str] = {
     "widen": "widen's full_query: (all required)^10 OR (query_text) OR (words)^0.1",
     "widen_alone": "widen's query_text alone",
     "bag_of_words_widen": "(bag of words)^10 OR (query_text): widen added to a front end's own query",
-    "curated": "a perfect hand-kept list of each job's titles, merged like widen (upper bound)",
+    "curated": "a perfect hand-kept list of each job's equivalent titles, in place of widen's neighbours",
 }
 
 
@@ -64,16 +66,22 @@ class CuratedList:
     def query_text(
         self, result: ExpansionResult, options: ExpansionOptions, names: Mapping[str, tuple[str, str]]
     ) -> str:
-        """widen's query text with each job segment's neighbours replaced by the list's titles for it."""
+        """widen's query text with each job segment's neighbours replaced by the list's titles for it (of
+        the corrected words, for a mistyped segment); a correction and a pattern's spellings stay."""
         clauses: list[Clause] = []
         for s, segment in enumerate(result.segments):
             if segment.kind == "noise":
                 continue
             clauses.append(Clause(phrase=segment.text, weight=1.0, original=True, segment=s))
+            clauses += [
+                Clause(phrase=e.phrase, weight=e.weight, original=False, segment=s)
+                for e in segment.expansions
+                if e.source in ("spelling", "pattern")
+            ]
             if segment.kind in JOBS:
                 clauses += [
                     Clause(phrase=other, weight=self.weight, original=False, segment=s)
-                    for other in self.synonyms.get(segment.text, [])
+                    for other in self.synonyms.get(segment.corrected or segment.text, [])
                 ]
         return render(clauses, result.segments, options, names)
 

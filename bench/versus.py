@@ -1,0 +1,144 @@
+"""`make versus`: `widen expand` in-process, this checkout against an earlier commit, side by side.
+
+Each version trains its own bundle on the same demo dump (the bundle a version serves is the one
+it trains) and times the same queries: every labelled query of the demo board, as seekers type
+them, and the two queries `make bench` times. The versions take turns, three rounds each, in one
+run on one machine, so the ratio is read from timings taken under the same load; absolute times on
+a shared machine are noisy, the ratio much less. The earlier commit is checked out as a git
+worktree under the output folder and imported ahead of the installed package (PYTHONPATH).
+
+    python -m bench.versus --before 909b7d8 --demo build/demo --out build/versus
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import statistics
+import subprocess
+import sys
+import time
+from pathlib import Path
+from typing import Any
+
+from bench.common import ROOT, machine
+
+__all__ = ["main"]
+
+#: Run inside each version's interpreter: load the bundle, warm up, time every query.
+_TIMER = r"""
+import json, statistics, sys, time
+from pathlib import Path
+from widen.decisions import DecisionSet
+from widen.expansion import expand
+from widen.lexicon import Lexicon
+from widen.store import Store
+
+store, queries_path, rounds = Path(sys.argv[1]), Path(sys.argv[2]), int(sys.argv[3])
+lex = Lexicon(Store(store).open_bundle())
+options, none = lex.options, DecisionSet()
+queries = [json.loads(line)["query"] for line in queries_path.open(encoding="utf-8")]
+for q in queries:
+    expand(lex, none, q, options)  # warm the per-entry memo, as a serving worker would be
+def per_query(qs, repeat):
+    times = []
+    for _ in range(repeat):
+        started = time.perf_counter()
+        for q in qs:
+            expand(lex, none, q, options)
+        times.append((time.perf_counter() - started) / len(qs))
+    return statistics.median(times) * 1e6
+print(json.dumps({
+    "labelled_queries_mean_us": per_query(queries, rounds),
+    "known_phrase_median_us": per_query(["staff nurse"], 300 * rounds),
+    "multi_segment_median_us": per_query(["night shift staff nurse hensby"], 200 * rounds),
+    "queries": len(queries),
+}))
+"""
+
+
+def _run(args: list[str], env: dict[str, str] | None = None, cwd: Path = ROOT) -> str:
+    done = subprocess.run(args, env=env, cwd=cwd, capture_output=True, text=True)
+    if done.returncode not in (0, 3):  # 3: the gate refused the bundle; it is still there to time
+        raise SystemExit(f"{' '.join(args[:4])} failed: {done.stderr[-2000:]}")
+    return done.stdout
+
+
+def _env(source: Path) -> dict[str, str]:
+    return {**os.environ, "PYTHONPATH": str(source)}
+
+
+def _train(source: Path, demo: Path, store: Path) -> None:
+    if store.is_dir():
+        return
+    corpus = str(demo / "postings.jsonl")
+    config = str(source / "demo_postings" / "widen.toml")
+    _run(
+        [sys.executable, "-m", "widen.cli", "train", "--corpus", corpus, "--store", str(store), "--config", config],
+        env=_env(source),
+        cwd=source,
+    )
+    forced = json.loads(
+        _run(
+            [sys.executable, "-m", "widen.cli", "bundles", "--store", str(store), "--json"],
+            env=_env(source),
+            cwd=source,
+        )
+    )
+    if not any(b.get("status") == "current" for b in forced):
+        _run(
+            [sys.executable, "-m", "widen.cli", "promote", forced[-1]["version"], "--store", str(store), "--force"],
+            env=_env(source),
+            cwd=source,
+        )
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("--before", required=True, help="the earlier commit")
+    parser.add_argument("--demo", type=Path, default=ROOT / "build" / "demo")
+    parser.add_argument("--out", type=Path, default=ROOT / "build" / "versus")
+    parser.add_argument("--rounds", type=int, default=3)
+    args = parser.parse_args()
+    out = args.out.resolve()
+    out.mkdir(parents=True, exist_ok=True)
+    commit = _run(["git", "rev-parse", args.before]).strip()
+    before = out / f"before-{commit[:10]}"
+    if not before.is_dir():
+        _run(["git", "worktree", "add", "--detach", str(before), commit])
+    sources = {"before": before, "now": ROOT}
+    for name, source in sources.items():
+        print(f"training with {name} ...", file=sys.stderr, flush=True)
+        _train(source, args.demo.resolve(), out / f"store-{name}")
+    rounds: dict[str, list[dict[str, float]]] = {name: [] for name in sources}
+    for turn in range(args.rounds):
+        for name, source in sources.items():
+            print(f"round {turn + 1}: {name}", file=sys.stderr, flush=True)
+            line = _run(
+                [sys.executable, "-c", _TIMER, str(out / f"store-{name}"), str(args.demo / "queries.jsonl"), "5"],
+                env=_env(source),
+                cwd=source,
+            )
+            rounds[name].append(json.loads(line))
+    medians = {
+        name: {k: round(statistics.median(r[k] for r in runs), 1) for k in runs[0] if k != "queries"}
+        for name, runs in rounds.items()
+    }
+    report: dict[str, Any] = {
+        "machine": machine(),
+        "date": time.strftime("%Y-%m-%d"),
+        "before": commit,
+        "now": _run(["git", "rev-parse", "HEAD"]).strip()
+        + (" + uncommitted" if _run(["git", "status", "--short"]) else ""),
+        "queries": rounds["now"][0]["queries"],
+        "median_us": medians,
+        "ratio_now_over_before": {k: round(medians["now"][k] / medians["before"][k], 3) for k in medians["now"]},
+        "target": "ratio <= 1.2 (issue 12)",
+    }
+    (out / "versus.json").write_text(json.dumps(report, indent=2) + "\n", encoding="utf-8")
+    print(json.dumps(report, indent=2))
+
+
+if __name__ == "__main__":
+    main()
