@@ -73,7 +73,8 @@ def _train(source: Path, demo: Path, store: Path) -> None:
     if store.is_dir():
         return
     corpus = str(demo / "postings.jsonl")
-    config = str(source / "demo_postings" / "widen.toml")
+    # The demo config (gate pairs relative to it) is the same at both commits; read this checkout's.
+    config = str(ROOT / "demo_postings" / "widen.toml")
     _run(
         [sys.executable, "-m", "widen.cli", "train", "--corpus", corpus, "--store", str(store), "--config", config],
         env=_env(source),
@@ -116,7 +117,7 @@ def main() -> None:
         for name, source in sources.items():
             print(f"round {turn + 1}: {name}", file=sys.stderr, flush=True)
             line = _run(
-                [sys.executable, "-c", _TIMER, str(out / f"store-{name}"), str(args.demo / "queries.jsonl"), "5"],
+                [sys.executable, "-c", _TIMER, str(out / f"store-{name}"), str(args.demo.resolve() / "queries.jsonl"), "5"],
                 env=_env(source),
                 cwd=source,
             )

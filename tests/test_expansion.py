@@ -282,3 +282,47 @@ def test_every_drop_reason_is_explained_in_words() -> None:
 
     assert set(DROP_REASONS) == set(get_args(DropReason))
     assert all(text.strip() for text in DROP_REASONS.values())
+
+
+def test_what_is_worked_out_once_per_entry_never_changes_a_result(trained_store: Path, demo_dir: Path) -> None:
+    """A lexicon that has served every set of options in turn answers exactly as a fresh one does for
+    each: the per-entry candidates and fixed filters it keeps are keyed by everything they read."""
+    from widen.decisions import Decision
+
+    queries = [json.loads(line)["query"] for line in (demo_dir / "queries.jsonl").open(encoding="utf-8")][::3]
+    queries += ["lorry driver", "kitchen chef hensby", '"staff nurse" nights', "senior carer p/t"]
+    said = DecisionSet.from_decisions(
+        1,
+        [
+            Decision(1, "lorry driver", "hgv driver", "block", None, "ana", None, "2026-12-02T10:00:00Z"),
+            Decision(2, "staff nurse", "ward sister", "block", None, "ana", None, "2026-12-02T10:00:00Z"),
+            Decision(3, "kitchen porter", "pot wash assistant", "pin", 0.4, "ana", None, "2026-12-02T10:00:00Z"),
+        ],
+    )
+    warm = Lexicon(Store(trained_store).open_bundle())
+    base = warm.options
+    option_sets = [
+        base,
+        base.with_request(min_similarity=0.8),
+        base.with_request(strict=True, max=2),
+        base.with_request(match="job", places="field"),
+        ExpansionOptions.model_validate({**base.model_dump(), "chance_neighbours": 5.0, "related_duties": 0.5}),
+    ]
+    answers = {}
+    for _ in range(2):  # the second round is served from what the first worked out
+        for n, options in enumerate(option_sets):
+            for q in queries:
+                for decisions in (NONE, said):
+                    key = (n, q, decisions.version)
+                    got = expand(warm, decisions, q, options, explain=True).model_dump_json()
+                    assert answers.setdefault(key, got) == got
+    for n, options in enumerate(option_sets):
+        fresh = Lexicon(Store(trained_store).open_bundle())
+        for q in queries:
+            for decisions in (NONE, said):
+                assert (
+                    expand(fresh, decisions, q, options, explain=True).model_dump_json()
+                    == answers[n, q, decisions.version]
+                )
+    # The options that change the filters do change some answer (the check above can fail).
+    assert any(answers[0, q, 0] != answers[4, q, 0] for q in queries)

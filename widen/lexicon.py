@@ -6,6 +6,7 @@ import re
 import threading
 from collections import Counter
 from dataclasses import dataclass
+from typing import Any, TypeVar
 
 import numpy as np
 import numpy.typing as npt
@@ -17,6 +18,8 @@ from widen.segment import Vocabulary
 from widen.text import PHRASE_JOINER, display, form, is_number, key_of, phrase_of
 
 __all__ = ["Lexicon", "Entry"]
+
+T = TypeVar("T")
 
 _NUMBER = re.compile(r"^[\d.,/:%+#-]+(?:st|nd|rd|th|k|hr|pm|am)?$")
 
@@ -68,12 +71,22 @@ class Lexicon:
         duties = (bundle.manifest.get("duties") or {}).get("split_half")
         #: The bundle's own cosine of "same job" between two duties profiles; None without duties.
         self.split_half: float | None = float(duties) if duties and bundle.duty_rows is not None else None
+        rows = bundle.duty_rows
+        #: For each entry, whether it has a duties profile (a plain list: one lookup per candidate).
+        self.with_duties: list[bool] = (
+            (np.asarray(rows) >= 0).tolist() if rows is not None and self.split_half is not None else []
+        )
+        self._duty_neighbours: dict[int, dict[int, float]] = {}
+        #: Results that depend on this bundle alone, worked out once per key (`remember`).
+        self.memo: dict[object, Any] = {}
+        self._option_keys: dict[int, tuple[ExpansionOptions, str]] = {}
         #: How close two titles with different duties are in skip-gram space in this bundle, by quantile.
         self._apart: dict[float, float | None] = {}
         #: Every word of every place and employer name.
         self.name_words: frozenset[str] = frozenset(w for k in self.protected for w in k.split(PHRASE_JOINER))
         self._entries: dict[tuple[int, frozenset[str]], Entry] = {}
         self._vocabularies: dict[tuple[object, ...], Vocabulary] = {}
+        self._used_spellings: dict[tuple[object, ...], list[str]] = {}
         self._spelling: tuple[list[str], npt.NDArray[np.float64]] | None = None
         self._lock = threading.Lock()
 
@@ -102,18 +115,38 @@ class Lexicon:
     # -- duties -----------------------------------------------------------------------------
 
     def duty_neighbours(self, j: int) -> dict[int, float]:
-        """The titles whose duties are most alike entry j's, with their cosines; empty without a profile."""
-        rows = self.bundle.duty_rows
-        if rows is None or self.split_half is None or rows[j] < 0:
-            return {}
-        r = int(rows[j])
-        index = np.asarray(self.bundle.duty_index[r])  # type: ignore[index]
-        sims = np.asarray(self.bundle.duty_similarity[r])  # type: ignore[index]
-        return dict(zip(index.tolist(), sims.tolist(), strict=True))
+        """The titles whose duties are most alike entry j's, with their cosines; empty without a profile.
+        Read from the bundle once per entry (callers must not change the dict)."""
+        found = self._duty_neighbours.get(j)
+        if found is None:
+            found = {}
+            if self.has_duties(j):
+                r = int(self.bundle.duty_rows[j])  # type: ignore[index]
+                index = np.asarray(self.bundle.duty_index[r])  # type: ignore[index]
+                sims = np.asarray(self.bundle.duty_similarity[r])  # type: ignore[index]
+                found = dict(zip(index.tolist(), sims.tolist(), strict=True))
+            if len(self._duty_neighbours) < 1_000_000:
+                self._duty_neighbours[j] = found
+        return found
+
+    def options_key(self, options: ExpansionOptions) -> str:
+        """A key that is equal for equal options, for `memo`: their JSON, worked out once per options
+        object (held here, so its id cannot be reused while it is a key)."""
+        found = self._option_keys.get(id(options))
+        if found is None or found[0] is not options:
+            if len(self._option_keys) >= 1024:
+                self._option_keys.clear()
+            found = self._option_keys[id(options)] = (options, options.model_dump_json())
+        return found[1]
+
+    def remember(self, key: object, value: T) -> T:
+        """Keep `value` for `key` in `memo` (up to a bound that no real vocabulary reaches), and return it."""
+        if len(self.memo) < 2_000_000:
+            self.memo[key] = value
+        return value
 
     def has_duties(self, j: int) -> bool:
-        rows = self.bundle.duty_rows
-        return rows is not None and self.split_half is not None and bool(rows[j] >= 0)
+        return bool(self.with_duties) and self.with_duties[j]
 
     def apart(self, quantile: float) -> float | None:
         """The input cosine that `quantile` of the pairs of titles with different duties stay under in this
@@ -146,9 +179,13 @@ class Lexicon:
 
     # -- the words segmentation knows ---------------------------------------------------------
 
+    @staticmethod
+    def _marker(options: ExpansionOptions) -> tuple[object, ...]:
+        return (options.noise_words, options.modifiers, tuple(sorted(options.patterns.items())), options.spelling)
+
     def vocabulary(self, options: ExpansionOptions) -> Vocabulary:
         """Segmentation's view of this bundle under `options`, built once per set of options."""
-        marker = (options.noise_words, options.modifiers, tuple(sorted(options.patterns.items())), options.spelling)
+        marker = self._marker(options)
         found = self._vocabularies.get(marker)
         if found is None:
             with self._lock:
@@ -178,9 +215,17 @@ class Lexicon:
         return spellings
 
     def used_spellings(self, pattern: str, options: ExpansionOptions) -> list[str]:
-        """The spellings of a pattern that the dump uses (their words are in the vocabulary), most used first."""
+        """The spellings of a pattern that the dump uses (their words are in the vocabulary), most used
+        first; worked out once per pattern and set of options."""
+        marker = (*self._marker(options), pattern)
+        known = self._used_spellings.get(marker)
+        if known is None:
+            known = self._used_spellings[marker] = self._find_used_spellings(pattern, options)
+        return list(known)
+
+    def _find_used_spellings(self, pattern: str, options: ExpansionOptions) -> list[str]:
         found = []
-        for key, name in self.pattern_spellings(options).items():
+        for key, name in self.vocabulary(options).spellings.items():
             if name != pattern:
                 continue
             rows = [self.index.get(w) for w in key.split(PHRASE_JOINER)]
