@@ -117,7 +117,14 @@ def main() -> None:
         for name, source in sources.items():
             print(f"round {turn + 1}: {name}", file=sys.stderr, flush=True)
             line = _run(
-                [sys.executable, "-c", _TIMER, str(out / f"store-{name}"), str(args.demo.resolve() / "queries.jsonl"), "5"],
+                [
+                    sys.executable,
+                    "-c",
+                    _TIMER,
+                    str(out / f"store-{name}"),
+                    str(args.demo.resolve() / "queries.jsonl"),
+                    "5",
+                ],
                 env=_env(source),
                 cwd=source,
             )

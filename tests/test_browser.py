@@ -226,16 +226,17 @@ def test_hostile_strings_do_not_run_or_break_the_page(browser: Any, review_store
     context.close()
 
 
-def _search_on_page(page: Any, query: str, mode: str) -> list[tuple[str, bool]]:
+def _search_on_page(page: Any, query: str, mode: str) -> list[tuple[str, str]]:
     """Search as a seeker would and wait for the page's final status (not its "searching..." line);
-    the results as (title, marked via expansion)."""
+    the results as (title, mark): "" for the seeker's own words, "widened" for a posting only an
+    expansion found, "loose" for one that only shares a word with the query."""
     page.get_by_label("Job title or skill").fill(query)
     page.get_by_label(mode).check()
     page.get_by_role("button", name="Search").click()
     page.wait_for_function("/postings \\(model /.test(document.getElementById('status').textContent)")
     items = page.locator("#results li")
     return [
-        (items.nth(i).locator("strong").inner_text(), "widened" in (items.nth(i).get_attribute("class") or ""))
+        (items.nth(i).locator("strong").inner_text(), (items.nth(i).get_attribute("class") or "").strip())
         for i in range(items.count())
     ]
 
@@ -253,9 +254,13 @@ def test_demo_search_page_marks_postings_only_an_expansion_found(
         assert not any(marked for _, marked in plain)
         expanded = _search_on_page(page, "lorry driver hensby", "with widen")
         assert len(expanded) > len(plain)
-        # The seeker's own matches come first, then the postings only a neighbour phrase found, marked.
+        # The seeker's own matches come first, then the postings only a neighbour phrase found, then
+        # those that only share a word with the query, each marked.
         assert sorted(t for t, _ in expanded[: len(plain)]) == sorted(t for t, _ in plain)
-        assert [m for _, m in expanded] == [False] * len(plain) + [True] * (len(expanded) - len(plain))
+        marks = [m for _, m in expanded]
+        assert marks[: len(plain)] == [""] * len(plain) and "widened" in marks
+        order = {"": 0, "widened": 1, "loose": 2}
+        assert [order[m] for m in marks] == sorted(order[m] for m in marks)
         assert page.locator("#results li.widened .badge").first.inner_text() == "via expansion"
         page.screenshot(path=str(ARTIFACTS / "demo-search.png"), full_page=True)
     page.close()

@@ -25,7 +25,12 @@ def _follow_page(client: TestClient, q: str) -> tuple[dict[str, Any], list[dict[
     """What the page does for one query: expand with places in their field, search full_query and the plain words."""
     expansion = client.get("/v1/expand", params={"q": q, "places": "field"}).json()
     plain = _plain(expansion)
-    asked = {"query_text": expansion["full_query"], "plain_text": plain, "limit": 100}
+    asked = {
+        "query_text": expansion["full_query"],
+        "plain_text": plain,
+        "expansion_text": expansion["query_text"],
+        "limit": 100,
+    }
     expanded = client.post("/demo/search", json=asked).json()["hits"]
     plain_hits = client.post("/demo/search", json={"query_text": plain, "plain_text": plain, "limit": 100}).json()
     return expansion, expanded, plain_hits["hits"]
@@ -46,9 +51,10 @@ def test_demo_page_searches_plain_and_expanded(trained_store: Path, demo_dir: Pa
         marked = [h for h in expanded if h["via_expansion"]]
         assert marked, "expansion should bring in postings that never say lorry driver"
         assert all("lorry driver" not in h["title"].lower() for h in marked)
-        # full_query puts the seeker's exact matches first: no marked hit above an unmarked one.
-        flags = [h["via_expansion"] for h in expanded]
-        assert flags == sorted(flags)
+        # full_query puts the seeker's exact matches first, then what only an expansion found, then
+        # what only shares a word with the query.
+        tiers = [2 if h["shares_a_word_only"] else 1 if h["via_expansion"] else 0 for h in expanded]
+        assert tiers == sorted(tiers) and tiers[0] == 0
 
         # A seeker-typed query: the town goes to the location field, the noise words nowhere.
         q = "lorry driver jobs near hensby"
@@ -63,6 +69,12 @@ def test_demo_page_searches_plain_and_expanded(trained_store: Path, demo_dir: Pa
         assert expanded[0]["id"] in matched
         ranks = [h["id"] in matched for h in expanded]
         assert ranks == sorted(ranks, reverse=True)
+        # The page tells those apart: "via expansion" only for what widen's query matched, and
+        # "shares a word" for the rest that the seeker's words do not match.
+        widened_ids = {h["id"] for h in widened["hits"]}
+        assert all(h["id"] in widened_ids for h in expanded if h["via_expansion"])
+        loose = [h for h in expanded if h["shares_a_word_only"]]
+        assert loose and all(h["id"] not in matched and not h["via_expansion"] for h in loose)
 
         bad = client.post("/demo/search", json={"query_text": '"unbalanced', "plain_text": ""})
         assert bad.status_code == 400 and bad.json()["error"]["field"] == "query_text"

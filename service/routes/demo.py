@@ -28,6 +28,8 @@ class DemoSearch(BaseModel):
 
     query_text: str = Field(max_length=8192)
     plain_text: str = Field(default="", max_length=8192)
+    # widen's own query_text: tells a posting an expansion found from one that only shares a word.
+    expansion_text: str = Field(default="", max_length=8192)
     limit: int = Field(default=20, ge=1, le=100)
 
 
@@ -38,6 +40,7 @@ class DemoHit(BaseModel):
     employer: str
     score: float
     via_expansion: bool
+    shares_a_word_only: bool = False
 
 
 class DemoHits(BaseModel):
@@ -52,13 +55,15 @@ async def demo_page() -> HTMLResponse:
 
 @router.post("/demo/search", response_model=DemoHits)
 async def demo_search(body: DemoSearch, state: State) -> DemoHits:
-    """Run a query text on the demo index; mark hits the plain words alone do not match."""
+    """Run a query text on the demo index; mark hits the plain words alone do not match, and of those,
+    with `expansion_text`, the ones widen's query_text does not match either (they only share a word)."""
     index = state.demo_index
     if index is None:  # the router is only mounted with a demo index
         raise ApiError(404, "not_found", "Not Found")
     try:
         hits = index.search(body.query_text, body.limit)
         plain = index.matching(body.plain_text) if body.plain_text else set()
+        widened = index.matching(body.expansion_text) if body.expansion_text else None
     except ValueError as exc:
         raise ApiError(400, "invalid_query_text", f"the search engine could not parse it: {exc}", "query_text") from exc
     return DemoHits(
@@ -69,7 +74,8 @@ async def demo_search(body: DemoSearch, state: State) -> DemoHits:
                 location=h.location,
                 employer=h.employer,
                 score=h.score,
-                via_expansion=bool(body.plain_text) and h.id not in plain,
+                via_expansion=bool(body.plain_text) and h.id not in plain and (widened is None or h.id in widened),
+                shares_a_word_only=widened is not None and h.id not in plain and h.id not in widened,
             )
             for h in hits
         ]
