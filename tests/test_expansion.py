@@ -308,7 +308,7 @@ def test_what_is_worked_out_once_per_entry_never_changes_a_result(trained_store:
         base.with_request(match="job", places="field"),
         ExpansionOptions.model_validate({**base.model_dump(), "chance_neighbours": 5.0, "related_duties": 0.5}),
     ]
-    answers = {}
+    answers: dict[tuple[int, str, int], str] = {}
     for _ in range(2):  # the second round is served from what the first worked out
         for n, options in enumerate(option_sets):
             for q in queries:
