@@ -26,7 +26,25 @@ def machine() -> str:
     except OSError:
         pass
     mem = os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES") / 2**30
-    return f"{os.cpu_count()} cores ({cpu}), {mem:.0f} GiB, Python {platform.python_version()}, {platform.system()}"
+    return (
+        f"{os.cpu_count()} cores ({cpu}), {mem:.0f} GiB, Python {platform.python_version()}, {platform.system()}"
+        f"; BLAS: {blas()}"
+    )
+
+
+def blas() -> str:
+    """The BLAS numpy calls, its version, kernel and threads, as threadpoolctl reports them."""
+    import numpy  # noqa: F401  (loads the BLAS, which threadpoolctl only sees once loaded)
+    from threadpoolctl import threadpool_info
+
+    pools = [p for p in threadpool_info() if p.get("user_api") == "blas"]
+    return (
+        ", ".join(
+            f"{p.get('internal_api')} {p.get('version')} ({p.get('architecture')}, {p.get('num_threads')} threads)"
+            for p in pools
+        )
+        or "none found"
+    )
 
 
 def widen_train(corpus: Path, store: Path, config: Path) -> float:

@@ -21,6 +21,7 @@ from bench.common import ROOT, machine, widen_train
 from bench.expansion import bench_expansion
 from bench.neighbours import bench_neighbours
 from bench.server import bench_server
+from bench.traffic import bench_traffic
 from bench.training import bench_memory, bench_pipeline
 from training.config import TrainConfig
 
@@ -31,7 +32,9 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("--demo", type=Path, default=ROOT / "build" / "demo")
     parser.add_argument("--out", type=Path, default=ROOT / "build" / "bench")
-    parser.add_argument("--only", nargs="*", default=None, help="sections: pipeline neighbours memory expansion server")
+    parser.add_argument(
+        "--only", nargs="*", default=None, help="sections: pipeline neighbours memory expansion server traffic"
+    )
     args = parser.parse_args()
     args.demo, args.out = args.demo.resolve(), args.out.resolve()
     args.out.mkdir(parents=True, exist_ok=True)
@@ -40,7 +43,7 @@ def main() -> None:
     config.gate.pairs = str(args.demo / "pairs.tsv")
     config_path.write_text(config.to_toml(), encoding="utf-8")
     results: dict[str, Any] = {"machine": machine(), "date": time.strftime("%Y-%m-%d")}
-    wanted = set(args.only or ["pipeline", "neighbours", "memory", "expansion", "server"])
+    wanted = set(args.only or ["pipeline", "neighbours", "memory", "expansion", "server", "traffic"])
     with tempfile.TemporaryDirectory(prefix="widen-bench-") as tmp:
         work = Path(tmp)
         if "pipeline" in wanted:
@@ -61,6 +64,11 @@ def main() -> None:
             store = work / "srv-store"
             widen_train(args.demo / "postings.jsonl", store, config_path)
             results["server"] = bench_server(store)
+        if "traffic" in wanted:
+            print("a day's query log replayed under wrk ...", file=sys.stderr)
+            store = work / "log-store"
+            widen_train(args.demo / "postings.jsonl", store, config_path)
+            results["traffic"] = bench_traffic(store, args.demo, work)
         if "memory" in wanted:
             print("memory 1x / 4x ...", file=sys.stderr)
             results["memory"] = bench_memory(args.demo, work, config_path)

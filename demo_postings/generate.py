@@ -1,4 +1,5 @@
-"""Generate a demo board's dump: postings, open postings, labelled queries, truth and gate pairs.
+"""Generate a demo board's dump: postings, open postings, labelled queries, truth, gate pairs and a
+day's query log (`query_log.jsonl`, for replaying traffic: `demo_postings/query_log.py`).
 
 Two invented boards (docs/scenario.md describes both): `tollbridge`, Tollbridge Valley Jobs, on
 which widen's thresholds and defaults were chosen; and `oxmere`, Oxmere Bay Work, written
@@ -23,6 +24,7 @@ from demo_postings import oxmere, tollbridge
 from demo_postings.families import Family
 from demo_postings.postings import oxmere_posting, repost, tollbridge_posting
 from demo_postings.queries import labelled_queries
+from demo_postings.query_log import query_log
 
 __all__ = ["generate", "BOARDS", "OPEN_DAYS"]
 
@@ -100,7 +102,14 @@ def _pairs(board: Board) -> list[tuple[str, str, str]]:
     return rows
 
 
-def generate(out: Path, postings: int, seed: int, open_days: int = OPEN_DAYS, board: str = "tollbridge") -> None:
+def generate(
+    out: Path,
+    postings: int,
+    seed: int,
+    open_days: int = OPEN_DAYS,
+    board: str = "tollbridge",
+    log_queries: int = 20000,
+) -> None:
     chosen = BOARDS[board]
     rng = random.Random(seed)
     # Larger families get more postings, as on a real board.
@@ -135,6 +144,9 @@ def generate(out: Path, postings: int, seed: int, open_days: int = OPEN_DAYS, bo
         fh.write("phrase_a\tphrase_b\texpect\n")
         for a, b, expect in _pairs(chosen):
             fh.write(f"{a}\t{b}\t{expect}\n")
+    # The log has its own random stream, so the files above stay as they were without it.
+    log_rng = random.Random(f"{seed}-query-log")
+    _write_jsonl(out / "query_log.jsonl", query_log(chosen.families, chosen.towns, log_rng, log_queries, DAY0))
 
 
 def main(argv: list[str] | None = None) -> None:
@@ -154,12 +166,17 @@ def main(argv: list[str] | None = None) -> None:
         default=OPEN_DAYS,
         help=f"postings of the last N days form open_postings.jsonl, the search index (default {OPEN_DAYS})",
     )
+    parser.add_argument(
+        "--log-queries", type=int, default=20000, help="queries in query_log.jsonl, a day's traffic (default 20000)"
+    )
     args = parser.parse_args(argv)
     if args.postings < 1:
         parser.error("--postings must be at least 1")
     if args.open_days < 1:
         parser.error("--open-days must be at least 1")
-    generate(args.out, args.postings, args.seed, args.open_days, args.board)
+    if args.log_queries < 0:
+        parser.error("--log-queries must be at least 0")
+    generate(args.out, args.postings, args.seed, args.open_days, args.board, args.log_queries)
     print(f"wrote {args.postings} postings of {BOARDS[args.board].name} to {args.out}")
 
 

@@ -7,6 +7,7 @@ and plain ASGI middleware. Tests build the app with their own settings and state
 
 from __future__ import annotations
 
+import gc
 import logging
 import sys
 from collections.abc import AsyncIterator
@@ -22,7 +23,7 @@ from service.routes import decisions, demo, expansion, operations
 from service.settings import Settings
 from service.state import ServiceState
 
-__all__ = ["create_app", "app_from_environment"]
+__all__ = ["create_app", "app_from_environment", "preloaded_app"]
 
 
 def create_app(settings: Settings, state: ServiceState | None = None, watch: bool = True) -> FastAPI:
@@ -76,3 +77,22 @@ def app_from_environment() -> FastAPI:
     logging.basicConfig(level=logging.INFO, format="%(levelname)s %(name)s: %(message)s")
     logging.getLogger("gensim").setLevel(logging.WARNING)
     return create_app(Settings())
+
+
+def preloaded_app() -> FastAPI:
+    """For a process manager that forks its workers from a parent that loaded the app (`widen serve
+    --workers N`): the app with the serving bundle and the decisions already loaded, and every object
+    made so far moved out of the garbage collector's reach with `gc.freeze()`. Python's documentation
+    of gc.freeze describes this use: disable the collector early in the parent, freeze right before
+    forking, enable it again early in each child (`service.launch` does that after the fork), so the
+    children's collections never write to the pages they share with the parent. The bundle's arrays
+    are memory-mapped files, shared whatever the collector does. Each worker still starts its own
+    watcher threads, metrics and response cache in the app's lifespan, after the fork."""
+    gc.disable()
+    app = app_from_environment()
+    state: ServiceState = app.state.widen
+    state.check()
+    state.check_decisions()
+    gc.collect()
+    gc.freeze()
+    return app

@@ -1,10 +1,18 @@
-"""Starting the HTTP service: `widen serve` turns its flags into settings and hands the process to uvicorn."""
+"""Starting the HTTP service: `widen serve` turns its flags into settings and hands the process over.
+
+One worker: uvicorn alone. Several: gunicorn, a process manager that loads the app once in its
+parent and forks the workers from it (`preload_app`), each running uvicorn's worker class
+(uvicorn-worker). The workers then share the parent's loaded libraries and bundle pages instead of
+each loading its own copy; see `service.app.preloaded_app` for the garbage-collector part.
+"""
 
 from __future__ import annotations
 
+import gc
 import os
 import sys
 from pathlib import Path
+from typing import Any
 
 from service.settings import Settings
 from widen.errors import EXIT_OK, BadInput
@@ -39,10 +47,44 @@ def serve(
     if settings.demo_index is not None:
         print(f"  demo search   {base}/demo")
     sys.stdout.flush()
-    # Hand the process over to uvicorn: with several workers its supervisor then holds none of
-    # widen's libraries, only the workers do (each loads the app from WIDEN_* variables).
+    if settings.workers > 1:
+        _preforked(settings)
+        return EXIT_OK
+    # One worker: hand the process over to uvicorn, which loads the app from WIDEN_* variables.
     command = [sys.executable, "-m", "uvicorn", "service.app:app_from_environment", "--factory"]
-    command += ["--host", settings.host, "--port", str(settings.port), "--workers", str(settings.workers)]
+    command += ["--host", settings.host, "--port", str(settings.port)]
     command += ["--log-level", "warning", "--no-access-log"]
     os.execv(sys.executable, command)
     return EXIT_OK  # pragma: no cover - execv does not return
+
+
+def _after_fork(server: Any, worker: Any) -> None:
+    gc.enable()  # the parent disabled it while loading (service.app.preloaded_app)
+
+
+def _preforked(settings: Settings) -> None:
+    """Run `settings.workers` uvicorn workers under gunicorn, forked from a parent that loaded the app."""
+    from gunicorn.app.base import BaseApplication
+
+    class Preforked(BaseApplication):  # type: ignore[misc]
+        def load_config(self) -> None:
+            for key, value in {
+                "bind": f"{settings.host}:{settings.port}",
+                "workers": settings.workers,
+                "worker_class": "uvicorn_worker.UvicornWorker",
+                "preload_app": True,
+                "post_fork": _after_fork,
+                "loglevel": "warning",
+                "accesslog": None,
+                "graceful_timeout": 10,
+                "timeout": 60,
+                "proc_name": "widen",
+            }.items():
+                self.cfg.set(key, value)
+
+        def load(self) -> Any:
+            from service.app import preloaded_app
+
+            return preloaded_app()
+
+    Preforked().run()

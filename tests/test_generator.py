@@ -12,6 +12,7 @@ import pytest
 
 from demo_postings.generate import BOARDS, generate
 from demo_postings.oxmere import PATTERN_SPELLINGS
+from demo_postings.queries import SEEKER_PATTERNS
 from widen.text import phrase_of
 
 # How the boards write each shift pattern: Oxmere Bay's spellings, and Tollbridge's title modifiers
@@ -108,3 +109,48 @@ def test_the_same_arguments_give_the_same_files(tmp_path: Path) -> None:
         generate(tmp_path / run, 300, seed=5, board="oxmere")
     for name in ("postings.jsonl", "open_postings.jsonl", "queries.jsonl", "truth.json", "pairs.tsv"):
         assert (tmp_path / "a" / name).read_bytes() == (tmp_path / "b" / name).read_bytes(), name
+
+
+def test_query_log_is_a_long_tailed_day_of_seeker_queries(demo_dir: Path, tmp_path: Path) -> None:
+    """The day's query log that `make bench` replays: time-ordered, seeker-typed, Zipf-like."""
+    import math
+
+    import numpy as np
+
+    rows = _rows(demo_dir / "query_log.jsonl")
+    assert len(rows) == 20000
+    assert [r["at"] for r in rows] == sorted(r["at"] for r in rows)
+    assert all(r["at"].startswith("2026-11-30T") for r in rows)
+    counts = Counter(r["q"] for r in rows)
+    # Long-tailed: most distinct queries arrive once, a few many times.
+    assert sum(1 for c in counts.values() if c == 1) > len(counts) / 2
+    assert counts.most_common(1)[0][1] > 100
+    # Zipf's law, frequency ~ 1 / rank^s with s = 1 here: the least-squares slope of log frequency
+    # against log rank over the 50 most frequent queries is near -1 (Zipf's rank-frequency law; the
+    # fit is the usual check, common practice, no source). A uniform draw would give a slope near 0.
+    top = [c for _, c in counts.most_common(50)]
+    slope = float(np.polyfit([math.log(r) for r in range(1, 51)], [math.log(c) for c in top], 1)[0])
+    assert -1.4 < slope < -0.6, slope
+    # Typed the way seekers type: towns, words that name no job, shift patterns, typos.
+    towns = {t.lower() for t in BOARDS["tollbridge"].towns}
+    titles = {t for f in BOARDS["tollbridge"].families for t in [*f.equivalent, *f.related]}
+    title_words = {w for t in titles for w in t.split(" ")}
+    distinct = list(counts)
+    assert any(any(q.endswith(" " + t) for t in towns) for q in distinct)
+    assert any(" jobs" in q or " near " in q for q in distinct)
+    assert any(q.startswith(("temp ", "nights ", "part-time ", "pt ")) for q in distinct)
+    typed_wrong = [q for q in distinct if not set(q.split(" ")) <= title_words | towns | _KNOWN_WORDS]
+    assert typed_wrong, "about one in ten distinct queries has a typo"
+    # Deterministic, and written on its own random stream: the log's size does not change the postings.
+    generate(tmp_path / "a", 300, seed=11, log_queries=50)
+    generate(tmp_path / "b", 300, seed=11, log_queries=500)
+    assert (tmp_path / "a" / "postings.jsonl").read_bytes() == (tmp_path / "b" / "postings.jsonl").read_bytes()
+    assert (tmp_path / "a" / "queries.jsonl").read_bytes() == (tmp_path / "b" / "queries.jsonl").read_bytes()
+    generate(tmp_path / "c", 300, seed=11, log_queries=50)
+    assert (tmp_path / "a" / "query_log.jsonl").read_bytes() == (tmp_path / "c" / "query_log.jsonl").read_bytes()
+
+
+#: Every word a correctly typed log query holds besides titles and towns: noise words and pattern spellings.
+_KNOWN_WORDS = {"jobs", "near", "me", "in", "vacancies", "job"} | {
+    w for group in SEEKER_PATTERNS.values() for s in group for w in s.split(" ")
+}

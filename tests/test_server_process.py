@@ -61,3 +61,53 @@ def test_a_decision_reaches_every_worker_within_a_second_and_survives_a_restart(
         assert victim not in _neighbours(server.base, "lorry driver")
         listed = httpx.get(f"{server.base}/v1/decisions").json()["decisions"]
         assert [(d["neighbour"], d["action"]) for d in listed] == [(victim, "block")]
+
+
+def _model_versions_seen(base: str, asks: int) -> set[str]:
+    versions = set()
+    for _ in range(asks):
+        with httpx.Client(base_url=base) as fresh:
+            versions.add(fresh.get("/v1/expand", params={"q": "staff nurse"}).json()["model"]["version"])
+    return versions
+
+
+def test_workers_fork_from_a_parent_that_loaded_the_bundle_and_each_swaps_and_counts(
+    two_bundle_store: Path, demo_dir: Path, tmp_path: Path
+) -> None:
+    """`widen serve --workers 2`: gunicorn loads the app and the bundle once, then forks. The parent
+    maps the bundle's files before any worker exists; the workers answer, swap to a newly promoted
+    bundle within the poll interval, and keep their own metrics (read with prometheus-client's parser)."""
+    from prometheus_client.parser import text_string_to_metric_families
+
+    from widen.store import Store
+
+    store = tmp_path / "store"
+    shutil.copytree(two_bundle_store, store)
+    serving = Store(store).current_version()
+    assert serving is not None
+    other = next(v for v in Store(store).versions() if v != serving)
+    env = {"WIDEN_POLL_SECONDS": "0.2"}
+    args = ("--workers", "2", "--demo-index", str(demo_dir / "open_postings.jsonl"))
+    with live_server(store, env, args) as server:
+        import psutil
+
+        parent = psutil.Process(server.process.pid)
+        workers = parent.children()
+        assert len(workers) == 2
+        # Loaded before the fork: the parent itself maps the serving bundle's arrays.
+        bundle_dir = str(store / "bundles" / serving)
+        assert any(m.path.startswith(bundle_dir) for m in parent.memory_maps())
+        assert _model_versions_seen(server.base, 12) == {serving}
+        hits = httpx.post(f"{server.base}/demo/search", json={"query_text": '"staff nurse"'}).json()["hits"]
+        assert hits  # the demo index opened in the parent answers in the workers
+        Store(store).set_current(other, by="test", forced=True)
+        swapped_at = time.monotonic()
+        while _model_versions_seen(server.base, 12) != {other}:
+            assert time.monotonic() - swapped_at < 5.0, "both workers should serve the promoted bundle"
+        # Each worker counts its own requests and says which bundle it serves.
+        for _ in range(4):
+            with httpx.Client(base_url=server.base) as fresh:
+                samples = [s for f in text_string_to_metric_families(fresh.get("/metrics").text) for s in f.samples]
+            info = [s for s in samples if s.name == "widen_model_info"]
+            assert [s.labels["version"] for s in info if s.value == 1] == [other]
+            assert any(s.name == "widen_requests_total" and s.value > 0 for s in samples)
