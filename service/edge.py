@@ -8,12 +8,15 @@ import time
 import uuid
 from collections.abc import Awaitable, Callable, MutableMapping
 from typing import Any
+from urllib.parse import parse_qsl
 
 from fastapi.responses import Response
 
 from service.cache import ResultCache
-from service.errors import error_response
+from service.errors import ApiError, error_response
+from service.routes.expansion import expand_one
 from service.state import ServiceState
+from service.wire import RequestOptions
 from widen.clock import utc_stamp
 
 __all__ = ["Edge", "route_label", "ROUTES"]
@@ -25,6 +28,11 @@ Send = Callable[[Message], Awaitable[None]]
 ASGIApp = Callable[[Scope, Receive, Send], Awaitable[None]]
 
 access_log = logging.getLogger("widen.access")
+
+#: A GET of /v1/expand with nothing but `q` asks for the served options as they are.
+_AS_SERVED = RequestOptions.model_construct(
+    max=None, min_similarity=None, explain=False, original_boost=None, operator=None, places=None, match=None
+)
 
 ROUTES = (
     "/v1/expand",
@@ -59,8 +67,11 @@ class Edge:
 
     Plain ASGI, not a framework middleware, because it runs on every request and must stay cheap:
     a GET of /v1/expand whose exact query string was answered before, for the same bundle and
-    decisions, is answered here from the cache without entering the framework; a POST body is
-    read once, checked against the limit, and replayed to the app (an ASGI body is taken once).
+    decisions, is answered here from the cache without entering the framework; one that asks
+    with `q` alone (what a search front end sends) and is new is expanded here too, by the same
+    function the route calls, so its bytes are the route's. Anything else, and any error, goes to
+    the framework, the one place that writes error bodies. A POST body is read once, checked
+    against the limit, and replayed to the app (an ASGI body is taken once).
     """
 
     def __init__(self, app: ASGIApp, state: ServiceState) -> None:
@@ -76,6 +87,24 @@ class Edge:
         if serving is None:
             return None
         return ("GET", serving.version, self.state.decisions.version, scope.get("query_string", b""))
+
+    def _plain_query(self, scope: Scope) -> str | None:
+        """The `q` of a GET /v1/expand that asks nothing else and that the route would take; else None."""
+        if scope["method"] != "GET" or scope.get("path") != "/v1/expand":
+            return None
+        if any(name == b"origin" for name, _ in scope.get("headers", [])):
+            return None  # browser calls go through the CORS layer
+        # As the framework reads a query string (Starlette's QueryParams: latin-1, then parse_qsl).
+        pairs = parse_qsl(scope.get("query_string", b"").decode("latin-1"), keep_blank_values=True)
+        if len(pairs) != 1 or pairs[0][0] != "q" or not 1 <= len(pairs[0][1]) <= 256:
+            return None
+        return str(pairs[0][1])
+
+    def _expanded(self, query: str) -> bytes | None:
+        try:
+            return expand_one(self.state, query, _AS_SERVED, "q").model_dump_json().encode()
+        except ApiError:
+            return None  # the route answers it again and writes the error body
 
     async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
         if scope["type"] != "http":
@@ -101,8 +130,15 @@ class Edge:
                     self.telemetry.cache_hits.inc()
                     await Response(found, media_type="application/json")(scope, receive, send_with_id)
                     return
+                self.telemetry.cache_misses.inc()
                 scope["widen.edge_caches"] = True  # the handler need not cache this response again
                 send_with_id = _keep_body(send_with_id, self.cache, key)
+            query = self._plain_query(scope)
+            if query is not None:
+                body = self._expanded(query)
+                if body is not None:  # kept by _keep_body when the cache is on
+                    await Response(body, media_type="application/json")(scope, receive, send_with_id)
+                    return
             if scope["method"] in ("POST", "PUT", "PATCH", "DELETE"):
                 body = await _read_limited(receive, self.settings.max_body_bytes)
                 if body is None:

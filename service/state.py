@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import logging
 import threading
+import time
 from collections.abc import Callable
 from dataclasses import dataclass
 
@@ -21,6 +22,7 @@ from widen.decision_stores import open_decision_store
 from widen.decisions import DecisionSet
 from widen.errors import BundleError
 from widen.evaluation.index import SearchIndex
+from widen.expansion import prepare
 from widen.lexicon import Lexicon
 from widen.options import ExpansionOptions
 from widen.store import Store
@@ -95,7 +97,12 @@ class ServiceState:
                 if self.serving is None:
                     self.not_ready_reason = f"bundle {version} failed verification: {exc}"
                 return "refused"
-            self.serving = Serving(lexicon, self.served_options(lexicon))
+            options = self.served_options(lexicon)
+            if self.settings.prepare:  # before the swap: the bundle serving now keeps serving meanwhile
+                started = time.monotonic()
+                entries = prepare(lexicon, options)
+                log.info("prepared %d entries of %s in %.1f s", entries, version, time.monotonic() - started)
+            self.serving = Serving(lexicon, options)
             log.info("serving bundle %s", version)
             self.telemetry.event("loaded", version)
             return "loaded"

@@ -255,3 +255,49 @@ def test_hot_swap_under_load_fails_no_request(client: TestClient, store_copy: Pa
     assert client.get("/readyz").json()["version"] == new
     metrics = client.get("/metrics").text
     assert "widen_reloads_refused_total 1.0" in metrics
+
+
+@pytest.mark.parametrize("cache_size", [0, 10000])
+def test_edge_answers_a_plain_get_with_the_routes_bytes(
+    store_copy: Path, demo_dir: Path, cache_size: int, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """A GET with `q` alone is expanded at the edge, without the framework; with another parameter it
+    goes through the route. Both must give the same bytes and headers, for every demo query and 200
+    distinct queries of the day's log, with the cache off and on; errors still come from the route."""
+    queries = [json.loads(line)["query"] for line in (demo_dir / "queries.jsonl").open(encoding="utf-8")]
+    logged = dict.fromkeys(json.loads(line)["q"] for line in (demo_dir / "query_log.jsonl").open(encoding="utf-8"))
+    queries += list(logged)[:200]
+    import service.edge
+    from service.routes.expansion import expand_one as original
+
+    at_the_edge: list[str] = []
+
+    def counted(state: object, query: str, asked: object, field: str) -> object:
+        at_the_edge.append(query)
+        return original(state, query, asked, field)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(service.edge, "expand_one", counted)
+    with TestClient(create_app(_settings(store_copy, cache_size=cache_size))) as c:
+        for q in queries:
+            at_edge = c.get("/v1/expand", params={"q": q})
+            routed = c.get("/v1/expand", params={"q": q, "explain": "false"})  # a second parameter: the route
+            assert at_edge.status_code == routed.status_code == 200
+            assert at_edge.content == routed.content, q
+            assert at_edge.headers["content-type"] == routed.headers["content-type"] == "application/json"
+        # The plain GETs were expanded at the edge (once each distinct query when the cache is on).
+        assert len(at_the_edge) == (len(set(queries)) if cache_size else len(queries))
+        for bad, code in (("", None), ("   ", "empty_query"), ("x" * 257, None), ("?!", "empty_query")):
+            got = c.get("/v1/expand", params={"q": bad})
+            assert got.status_code == 400 and "error" in got.json()
+            if code:
+                assert got.json()["error"]["code"] == code
+        families = {f.name: f for f in text_string_to_metric_families(c.get("/metrics").text)}
+        requests = {
+            (s.labels["route"], s.labels["status"]): s.value
+            for s in families["widen_requests"].samples
+            if s.name == "widen_requests_total"
+        }
+        assert requests[("/v1/expand", "200")] == 2 * len(queries)
+        if cache_size:  # each plain query missed once, at the edge, and is counted
+            misses = [s.value for s in families["widen_cache_misses"].samples if s.name == "widen_cache_misses_total"]
+            assert misses and misses[0] >= len(set(queries))

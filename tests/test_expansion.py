@@ -13,7 +13,7 @@ from hypothesis import strategies as st
 
 from widen.decisions import DecisionSet
 from widen.evaluation.scorecard import scorecard
-from widen.expansion import expand, weight_for
+from widen.expansion import expand, prepare, weight_for
 from widen.lexicon import Lexicon
 from widen.neighbours import normalise_rows
 from widen.options import ExpansionOptions
@@ -284,23 +284,34 @@ def test_every_drop_reason_is_explained_in_words() -> None:
     assert all(text.strip() for text in DROP_REASONS.values())
 
 
-def test_what_is_worked_out_once_per_entry_never_changes_a_result(trained_store: Path, demo_dir: Path) -> None:
-    """A lexicon that has served every set of options in turn answers exactly as a fresh one does for
-    each: the per-entry candidates and fixed filters it keeps are keyed by everything they read."""
+def _decided() -> DecisionSet:
     from widen.decisions import Decision
 
-    queries = [json.loads(line)["query"] for line in (demo_dir / "queries.jsonl").open(encoding="utf-8")][::3]
-    queries += ["lorry driver", "kitchen chef hensby", '"staff nurse" nights', "senior carer p/t"]
-    said = DecisionSet.from_decisions(
+    at = "2026-12-02T10:00:00Z"
+    return DecisionSet.from_decisions(
         1,
         [
-            Decision(1, "lorry driver", "hgv driver", "block", None, "ana", None, "2026-12-02T10:00:00Z"),
-            Decision(2, "staff nurse", "ward sister", "block", None, "ana", None, "2026-12-02T10:00:00Z"),
-            Decision(3, "kitchen porter", "pot wash assistant", "pin", 0.4, "ana", None, "2026-12-02T10:00:00Z"),
+            Decision(1, "lorry driver", "hgv driver", "block", None, "ana", None, at),
+            Decision(2, "staff nurse", "ward sister", "block", None, "ana", None, at),
+            Decision(3, "kitchen porter", "pot wash assistant", "pin", 0.4, "ana", None, at),
+            Decision(4, "chef", None, "exempt", None, "ana", None, at),
         ],
     )
-    warm = Lexicon(Store(trained_store).open_bundle())
-    base = warm.options
+
+
+def test_what_is_worked_out_once_never_changes_a_result(trained_store: Path, demo_dir: Path) -> None:
+    """The fast path (a lexicon that keeps what depends on the bundle alone, having served every set of
+    options in turn) against the reference (`memoise=False`: every call works everything out): the
+    JSON of every third demo query and of 300 distinct queries of the day's log is byte-identical,
+    explained or not, with and without reviewer decisions, for five sets of options."""
+    queries = [json.loads(line)["query"] for line in (demo_dir / "queries.jsonl").open(encoding="utf-8")][::3]
+    logged = dict.fromkeys(json.loads(line)["q"] for line in (demo_dir / "query_log.jsonl").open(encoding="utf-8"))
+    queries += [*list(logged)[:300], "lorry driver", "kitchen chef hensby", '"staff nurse" nights', "senior carer p/t"]
+    said = _decided()
+    bundle = Store(trained_store).open_bundle()
+    fast, reference = Lexicon(bundle), Lexicon(bundle, memoise=False)
+    base = fast.options
+    assert prepare(fast, base) == len(fast.keys)  # as the service does before a bundle serves
     option_sets = [
         base,
         base.with_request(min_similarity=0.8),
@@ -308,21 +319,61 @@ def test_what_is_worked_out_once_per_entry_never_changes_a_result(trained_store:
         base.with_request(match="job", places="field"),
         ExpansionOptions.model_validate({**base.model_dump(), "chance_neighbours": 5.0, "related_duties": 0.5}),
     ]
-    answers: dict[tuple[int, str, int], str] = {}
-    for _ in range(2):  # the second round is served from what the first worked out
+    answers: dict[tuple[int, str, int, bool], str] = {}
+    for _ in range(2):  # the second round is served from what the first kept
         for n, options in enumerate(option_sets):
             for q in queries:
                 for decisions in (NONE, said):
-                    key = (n, q, decisions.version)
-                    got = expand(warm, decisions, q, options, explain=True).model_dump_json()
-                    assert answers.setdefault(key, got) == got
-    for n, options in enumerate(option_sets):
-        fresh = Lexicon(Store(trained_store).open_bundle())
-        for q in queries:
-            for decisions in (NONE, said):
-                assert (
-                    expand(fresh, decisions, q, options, explain=True).model_dump_json()
-                    == answers[n, q, decisions.version]
-                )
-    # The options that change the filters do change some answer (the check above can fail).
-    assert any(answers[0, q, 0] != answers[4, q, 0] for q in queries)
+                    for explain in (False, True):
+                        got = expand(fast, decisions, q, options, explain=explain).model_dump_json()
+                        assert answers.setdefault((n, q, decisions.version, explain), got) == got
+    assert fast.memo and not reference.memo
+    for (n, q, version, explain), got in answers.items():
+        decisions = said if version else NONE
+        assert expand(reference, decisions, q, option_sets[n], explain=explain).model_dump_json() == got, (n, q)
+    # The options that change the filters do change some answers, and so do the decisions (the
+    # comparison above is between answers that differ, not one answer repeated).
+    assert any(answers[0, q, 0, True] != answers[4, q, 0, True] for q in queries)
+    assert any(answers[0, q, 0, True] != answers[0, q, 1, True] for q in queries)
+
+
+@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(
+    words=st.lists(
+        st.sampled_from(
+            [
+                "staff",
+                "nurse",
+                "lorry",
+                "driver",
+                "kitchen",
+                "porter",
+                "chef",
+                "hensby",
+                "jobs",
+                "near",
+                "nights",
+                "p/t",
+                "temp",
+                "senior",
+                "carer",
+                "bookkepper",
+                "drvier",
+                "xq",
+                '"',
+                "c++",
+            ]
+        ),
+        min_size=1,
+        max_size=6,
+    )
+)
+def test_fast_path_equals_the_reference_on_generated_queries(lexicon: Lexicon, words: list[str]) -> None:
+    """Hypothesis-generated queries from job words, places, patterns, noise, typos and junk: the kept
+    answers equal the reference's, with and without decisions."""
+    reference = Lexicon(lexicon.bundle, memoise=False)
+    query = " ".join(words)
+    for decisions in (NONE, _decided()):
+        for _ in range(2):
+            fast = expand(lexicon, decisions, query, lexicon.options, explain=True).model_dump_json()
+            assert fast == expand(reference, decisions, query, lexicon.options, explain=True).model_dump_json()

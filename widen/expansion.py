@@ -29,7 +29,7 @@ from widen.result import Clause, Dropped, DropReason, Expansion, ExpansionResult
 from widen.segment import Piece, segment_query
 from widen.text import PHRASE_JOINER, display, form, key_of
 
-__all__ = ["expand", "weight_for"]
+__all__ = ["expand", "weight_for", "prepare"]
 
 
 def weight_for(similarity: float, options: ExpansionOptions) -> float:
@@ -67,9 +67,27 @@ def _pinned(lex: Lexicon, said: PhraseDecisions, vector: npt.NDArray[np.float32]
 def _expand_piece(
     lex: Lexicon, piece: Piece, decisions: DecisionSet, options: ExpansionOptions, explain: bool, context: _Context
 ) -> tuple[list[Expansion], list[Dropped]]:
-    """The expansions of one job segment (its correction aside), and with `explain` every drop and why."""
+    """The expansions of one job segment (its correction aside), and with `explain` every drop and why.
+    A known entry that no reviewer decided anything for, and whose neighbours in the query do not
+    change its filters (it is no head word beside another job), expands the same way in every query:
+    that outcome is worked out once per bundle and options (`Lexicon.memo`)."""
     if piece.kind not in JOBS or (piece.kind == "unknown" and not piece.parts):
         return [], []
+    said = decisions.get(piece.typed or display(piece.key))
+    if piece.parts or context.head or said.blocked or said.pinned or said.exempt:
+        return _expand_piece_now(lex, piece, decisions, options, explain, context)
+    memo = ("piece", lex.index[piece.key], lex.options_key(options), explain)
+    known = lex.memo.get(memo)
+    if known is None:
+        kept, dropped = _expand_piece_now(lex, piece, decisions, options, explain, context)
+        known = lex.remember(memo, (tuple(kept), tuple(dropped)))
+    return list(known[0]), list(known[1])
+
+
+def _expand_piece_now(
+    lex: Lexicon, piece: Piece, decisions: DecisionSet, options: ExpansionOptions, explain: bool, context: _Context
+) -> tuple[list[Expansion], list[Dropped]]:
+    """`_expand_piece` worked out in full."""
     text = display(piece.key)
     said = decisions.get(piece.typed or text)
     found, source, own_share = candidates(lex, piece, options)
@@ -273,3 +291,18 @@ def expand(
     )
     full = merged_text(baseline_text(result), result.query_text, words=words_text(result))
     return result.model_copy(update={"full_query": full})
+
+
+def prepare(lex: Lexicon, options: ExpansionOptions) -> int:
+    """Work out, for every entry of the bundle, how it expands on its own under `options` with no
+    reviewer decision for it (what most segments of most queries are), so that no query pays for
+    that the first time: the long tail of a day's queries is mostly first times. Only that outcome
+    is kept (a few expansions an entry); the candidates and filters it came from are let go again.
+    Returns the number of entries prepared."""
+    none, alone = DecisionSet(), _Context(frozenset(), False, None)
+    key_of_options = lex.options_key(options)
+    for i, key in enumerate(lex.keys):
+        _expand_piece(lex, Piece(key, "phrase" if PHRASE_JOINER in key else "term"), none, options, False, alone)
+        lex.memo.pop((i, options.candidates), None)
+        lex.memo.pop(("fixed", i, key_of_options), None)
+    return len(lex.keys)
