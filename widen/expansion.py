@@ -264,7 +264,7 @@ def expand(
                 emitted.add(e.phrase)
         typed = piece.typed or display(piece.key)
         segments.append(
-            Segment(
+            Segment.model_construct(  # built from values already checked: no validation per query
                 text=typed,
                 kind=piece.kind,  # type: ignore[arg-type]
                 field=piece.field,
@@ -278,13 +278,14 @@ def expand(
             continue  # names no job: no clause
         if typed not in emitted:  # a word typed twice is one clause
             emitted.add(typed)
-            clauses.append(Clause(phrase=typed, weight=round(boost, 4), original=True, segment=s))
+            clauses.append(Clause.model_construct(phrase=typed, weight=round(boost, 4), original=True, segment=s))
         clauses.extend(
-            Clause(phrase=e.phrase, weight=round(e.weight * boost, 4), original=False, segment=s) for e in final
+            Clause.model_construct(phrase=e.phrase, weight=round(e.weight * boost, 4), original=False, segment=s)
+            for e in final
         )
-    result = ExpansionResult(
+    result = ExpansionResult.model_construct(
         query=query,
-        model=ModelInfo(version=lex.version, created_at=lex.created_at),
+        model=ModelInfo.model_construct(version=lex.version, created_at=lex.created_at),
         segments=segments,
         clauses=clauses,
         query_text=render(clauses, segments, options, lex.names),
