@@ -1,8 +1,8 @@
 """Exact cosine nearest neighbours for every vocabulary entry, in blocks.
 
 A block of rows is multiplied by the whole normalised matrix (one BLAS call), the
-entry itself is masked, and the top k are picked with argpartition and sorted. Peak
-extra memory is `block_rows x V` floats, never the full V x V matrix.
+entry itself is masked, and the top k are picked a few rows at a time. Peak extra memory is
+`block_rows x V` floats and the picking's temporaries for 128 rows, never the full V x V matrix.
 """
 
 from __future__ import annotations
@@ -15,6 +15,9 @@ import numpy.typing as npt
 __all__ = ["normalise_rows", "top_k_table", "top_k_for_vector", "top_k_rows"]
 
 Matrix = npt.NDArray[np.float32]
+
+#: Rows of a block picked from at once (the top k of each).
+_PICK_ROWS = 128
 
 
 def normalise_rows(vectors: npt.ArrayLike) -> Matrix:
@@ -76,9 +79,13 @@ def top_k_table(
         sims = normed[start:stop] @ normed.T
         rows = np.arange(stop - start)
         sims[rows, rows + start] = -np.inf
-        idx, val = top_k_rows(sims, k)
-        indices[start:stop] = idx
-        sims_out[start:stop] = val
+        # Picking runs on a few rows at a time: its temporaries (a mask and a partition of every
+        # stride-th column) stay a small fraction of the block instead of a third of it.
+        for first in range(0, stop - start, _PICK_ROWS):
+            last = min(first + _PICK_ROWS, stop - start)
+            idx, val = top_k_rows(sims[first:last], k)
+            indices[start + first : start + last] = idx
+            sims_out[start + first : start + last] = val
         if on_block is not None:
             on_block(stop - start)
     return indices, sims_out
