@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import gc
 import logging
+import os
 import sys
 from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager
@@ -93,6 +94,10 @@ def preloaded_app() -> FastAPI:
     state: ServiceState = app.state.widen
     state.check()
     state.check_decisions()
+    if state.telemetry.shared:  # the parent serves no request: its live gauges must not count
+        from prometheus_client import multiprocess
+
+        multiprocess.mark_process_dead(os.getpid())  # type: ignore[no-untyped-call]
     gc.collect()
     gc.freeze()
     return app

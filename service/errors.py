@@ -11,6 +11,8 @@ from fastapi.responses import JSONResponse
 from pydantic import BaseModel
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
+from widen.errors import DecisionsUnavailable
+
 __all__ = ["ApiError", "ErrorBody", "ERRORS", "error_response", "install_error_handlers"]
 
 
@@ -61,6 +63,11 @@ def _field(loc: Any) -> str | None:
     return ".".join(parts) or None
 
 
+async def _decisions_unavailable(request: Request, exc: Exception) -> JSONResponse:
+    # The message names the database with its password masked (widen.postgres_decisions.masked_url).
+    return error_response(503, "decisions_unavailable", f"{exc}; nothing was written, try again shortly")
+
+
 async def _api_error(request: Request, exc: Exception) -> JSONResponse:
     assert isinstance(exc, ApiError)
     return error_response(exc.status, exc.code, exc.message, exc.field)
@@ -92,6 +99,7 @@ async def _unexpected(request: Request, exc: Exception) -> JSONResponse:
 def install_error_handlers(app: FastAPI) -> None:
     """Answer every error of `app` in the one shape."""
     app.add_exception_handler(ApiError, _api_error)
+    app.add_exception_handler(DecisionsUnavailable, _decisions_unavailable)
     app.add_exception_handler(RequestValidationError, _invalid)
     app.add_exception_handler(StarletteHTTPException, _http)
     app.add_exception_handler(Exception, _unexpected)

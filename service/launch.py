@@ -10,7 +10,9 @@ from __future__ import annotations
 
 import gc
 import os
+import shutil
 import sys
+import tempfile
 from pathlib import Path
 from typing import Any
 
@@ -62,9 +64,28 @@ def _after_fork(server: Any, worker: Any) -> None:
     gc.enable()  # the parent disabled it while loading (service.app.preloaded_app)
 
 
+def _worker_gone(server: Any, worker: Any) -> None:
+    from prometheus_client import multiprocess
+
+    multiprocess.mark_process_dead(worker.pid)  # type: ignore[no-untyped-call]  # live gauges drop it
+
+
+def _metrics_dir() -> Path:
+    """A fresh folder for the workers' shared metrics, set before prometheus-client is first used."""
+    folder = Path(tempfile.mkdtemp(prefix="widen-metrics-"))
+    os.environ["PROMETHEUS_MULTIPROC_DIR"] = str(folder)  # service.telemetry.MULTIPROCESS
+    if "prometheus_client.values" in sys.modules:  # chosen at import: choose again, now shared
+        import prometheus_client.values
+
+        prometheus_client.values.ValueClass = prometheus_client.values.get_value_class()  # type: ignore[no-untyped-call]
+    return folder
+
+
 def _preforked(settings: Settings) -> None:
     """Run `settings.workers` uvicorn workers under gunicorn, forked from a parent that loaded the app."""
     from gunicorn.app.base import BaseApplication
+
+    metrics = _metrics_dir()
 
     class Preforked(BaseApplication):  # type: ignore[misc]
         def load_config(self) -> None:
@@ -74,6 +95,8 @@ def _preforked(settings: Settings) -> None:
                 "worker_class": "uvicorn_worker.UvicornWorker",
                 "preload_app": True,
                 "post_fork": _after_fork,
+                "child_exit": _worker_gone,
+                "on_exit": lambda server: shutil.rmtree(metrics, ignore_errors=True),
                 "loglevel": "warning",
                 "accesslog": None,
                 "graceful_timeout": 10,

@@ -32,6 +32,9 @@ class Settings(BaseSettings):
     max_batch: int = Field(default=100, ge=1)
     max_body_bytes: int = Field(default=64 * 1024, ge=1024)
     access_log: bool = True
+    # A postgresql:// database for the decisions, shared by replicas on several hosts; unset: the
+    # store's own SQLite. A secret: it never appears in logs, errors or pages (password masked).
+    decisions_url: SecretStr | None = None
     # Before a bundle serves, work out how every entry expands on its own (widen.expansion.prepare),
     # so the first query of each phrase costs what a repeated one does; about 0.3 ms an entry.
     prepare: bool = True

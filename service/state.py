@@ -50,7 +50,10 @@ class ServiceState:
     def __init__(self, settings: Settings, telemetry: Telemetry | None = None) -> None:
         self.settings = settings
         self.store = Store(settings.store)
-        self.decision_store = open_decision_store(self.store)
+        url = settings.decisions_url.get_secret_value() if settings.decisions_url else None
+        self.decision_store = open_decision_store(self.store, url)
+        #: Why the decisions in use may be out of date (the database cannot be reached), else None.
+        self.decisions_stale: str | None = None
         self.telemetry = telemetry or Telemetry()
         # The service caches response bytes: a hit costs a dict lookup, no model and no JSON work.
         self.cache: ResultCache[bytes] = ResultCache(settings.cache_size)
@@ -65,6 +68,7 @@ class ServiceState:
         self._others: dict[str, Lexicon] = {}
         self._built: dict[str, SearchIndex] = {}
         self._lock = threading.Lock()
+        self._decisions_lock = threading.Lock()
         self._stop = threading.Event()
         self._threads: list[threading.Thread] = []
 
@@ -124,13 +128,22 @@ class ServiceState:
         """Take a new snapshot if any process changed the decisions; True when it did."""
         try:
             stamp = self.decision_store.stamp()
-        except Exception as exc:  # a locked or damaged database must not stop serving
-            log.error("cannot read decisions: %s", exc)
+            if stamp == self._decisions_stamp:
+                self.decisions_stale = None
+                return False
+            snapshot = self.decision_store.snapshot()
+        except Exception as exc:  # a locked, damaged or unreachable database must not stop serving
+            if self.decisions_stale is None:
+                log.error("cannot read decisions, serving the last ones loaded: %s", exc)
+            self.decisions_stale = (
+                "the decisions database cannot be reached: serving the decisions last loaded"
+                f" (stamp {max(self._decisions_stamp, 0)}) until it is back"
+            )
             return False
-        if stamp == self._decisions_stamp:
-            return False
-        self.decisions = self.decision_store.snapshot()
-        self._decisions_stamp = stamp
+        with self._decisions_lock:  # the poller and the listener may both have read one
+            self.decisions = snapshot
+            self._decisions_stamp = snapshot.version
+        self.decisions_stale = None
         return True
 
     # -- the postings preview ---------------------------------------------------------------
@@ -158,6 +171,13 @@ class ServiceState:
         every = ((self.check, self.settings.poll_seconds), (self.check_decisions, self.settings.decisions_poll_seconds))
         for target, seconds in every:
             thread = threading.Thread(target=self._loop, args=(target, seconds), daemon=True, name="widen-watch")
+            thread.start()
+            self._threads.append(thread)
+        listen = getattr(self.decision_store, "listen", None)
+        if listen is not None:  # a shared database wakes every replica at once; polling stays the fallback
+            thread = threading.Thread(
+                target=listen, args=(self.check_decisions, self._stop), daemon=True, name="widen-listen"
+            )
             thread.start()
             self._threads.append(thread)
 

@@ -66,6 +66,9 @@ class ModelResponse(BaseModel):
 class Status(BaseModel):
     status: str
     version: str | None = None
+    decisions: str | None = Field(
+        default=None, description="'current', or why the decisions in use may be stale (their database is away)"
+    )
 
 
 class ReloadResponse(BaseModel):

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import io
+import itertools
 import json
 import os
 import shutil
@@ -12,6 +13,7 @@ from pathlib import Path
 import pytest
 
 from demo_postings.generate import generate
+from tests.postgres_server import PostgresServer, postgres_server
 from training.config import TrainConfig, load_config
 from training.pipeline import TrainOutcome, train
 
@@ -85,3 +87,24 @@ def two_bundle_store(trained_store: Path, demo_dir: Path, tmp_path_factory: pyte
     shutil.copytree(trained_store, store)
     train_quietly(demo_dir / "postings.jsonl", store, demo_config(demo_dir, **{"embedding.seed": 5}))
     return store
+
+
+@pytest.fixture(scope="session")
+def postgres() -> Iterator[PostgresServer]:
+    """A throwaway PostgreSQL cluster for the session (skips locally without one; fails under CI=true)."""
+    with postgres_server() as server:
+        yield server
+
+
+_databases = itertools.count(1)
+
+
+@pytest.fixture
+def postgres_url(postgres: PostgresServer) -> str:
+    """A new, empty database on the session's cluster, for one test."""
+    import psycopg
+
+    name = f"widen_test_{next(_databases)}"
+    with psycopg.connect(postgres.url, autocommit=True) as conn:
+        conn.execute(f"CREATE DATABASE {name}")
+    return postgres.url.rsplit("/", 1)[0] + f"/{name}"

@@ -5,6 +5,7 @@ from __future__ import annotations
 import shutil
 import time
 from pathlib import Path
+from typing import Any
 
 import httpx
 
@@ -76,7 +77,7 @@ def test_workers_fork_from_a_parent_that_loaded_the_bundle_and_each_swaps_and_co
 ) -> None:
     """`widen serve --workers 2`: gunicorn loads the app and the bundle once, then forks. The parent
     maps the bundle's files before any worker exists; the workers answer, swap to a newly promoted
-    bundle within the poll interval, and keep their own metrics (read with prometheus-client's parser)."""
+    bundle within the poll interval, and one scrape adds up both workers' metrics (prometheus-client's parser)."""
     from prometheus_client.parser import text_string_to_metric_families
 
     from widen.store import Store
@@ -104,10 +105,25 @@ def test_workers_fork_from_a_parent_that_loaded_the_bundle_and_each_swaps_and_co
         swapped_at = time.monotonic()
         while _model_versions_seen(server.base, 12) != {other}:
             assert time.monotonic() - swapped_at < 5.0, "both workers should serve the promoted bundle"
-        # Each worker counts its own requests and says which bundle it serves.
-        for _ in range(4):
+
+        # One scrape, whichever worker takes it, reports the whole server (prometheus-client's
+        # multiprocess mode): 40 requests spread over both workers add up to 40.
+        def scrape() -> list[Any]:
             with httpx.Client(base_url=server.base) as fresh:
-                samples = [s for f in text_string_to_metric_families(fresh.get("/metrics").text) for s in f.samples]
+                return [s for f in text_string_to_metric_families(fresh.get("/metrics").text) for s in f.samples]
+
+        def expand_count(samples: list[Any]) -> float:
+            return sum(
+                float(s.value)
+                for s in samples
+                if s.name == "widen_requests_total" and s.labels == {"route": "/v1/expand", "status": "200"}
+            )
+
+        before = expand_count(scrape())
+        assert len(_model_versions_seen(server.base, 40)) == 1
+        for _ in range(4):
+            samples = scrape()
+            assert expand_count(samples) - before == 40
             info = [s for s in samples if s.name == "widen_model_info"]
-            assert [s.labels["version"] for s in info if s.value == 1] == [other]
-            assert any(s.name == "widen_requests_total" and s.value > 0 for s in samples)
+            assert {s.labels["version"]: s.value for s in info if s.value > 0} == {other: 2}  # both workers
+            assert [s.value for s in samples if s.name == "widen_ready"] == [1]

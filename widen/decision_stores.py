@@ -3,12 +3,20 @@
 from __future__ import annotations
 
 from widen.decisions import DecisionStore
+from widen.errors import BadInput
 from widen.sqlite_decisions import SqliteDecisionStore
 from widen.store import Store
 
 __all__ = ["open_decision_store"]
 
 
-def open_decision_store(store: Store) -> DecisionStore:
-    """The decisions of `store`: SQLite in the store folder (the embedded default)."""
-    return SqliteDecisionStore(store.decisions_path)
+def open_decision_store(store: Store, url: str | None = None) -> DecisionStore:
+    """The decisions of `store`: SQLite in the store folder (the embedded default), or, with `url`
+    a postgresql:// connection string, that PostgreSQL database (shared by replicas on several hosts)."""
+    if not url:
+        return SqliteDecisionStore(store.decisions_path)
+    if url.startswith(("postgresql://", "postgres://")):
+        from widen.postgres_decisions import PostgresDecisionStore
+
+        return PostgresDecisionStore(url)
+    raise BadInput("the decisions database must be a postgresql:// URL (or unset for the store's own SQLite)")

@@ -173,18 +173,59 @@ class DecisionStore(ABC):
         checked = checked_decision(phrase, action, reviewer, neighbour, weight)
         return self._insert([(checked, action, weight, note)])[0]
 
-    def export(self) -> dict[str, Any]:
-        """The decisions in force, as JSON another store (of any backend) can import."""
-        return {
+    @abstractmethod
+    def _restore(self, decisions: list[Decision], audit: list[dict[str, Any]]) -> int:
+        """Into an empty database: every decision as it was (new ids) and every audit event, pointed
+        at the new ids, in one transaction; returns the number of decisions."""
+
+    def export(self, history: bool = False) -> dict[str, Any]:
+        """The decisions in force, as JSON another store (of any backend) can import; with `history`,
+        also every decision ever made (withdrawn ones too) and the audit trail, for moving a whole
+        decisions database to another backend."""
+        exported: dict[str, Any] = {
             "format": EXPORT_FORMAT,
             "version": EXPORT_VERSION,
             "decisions": [d.as_dict() for d in self.entries()],
         }
+        if history:
+            exported["history"] = {
+                "decisions": [d.as_dict() for d in self.entries(include_withdrawn=True)],
+                "audit": self.audit(),
+            }
+        return exported
+
+    def _import_history(self, history: Any) -> int:
+        if not isinstance(history, dict) or not isinstance(history.get("decisions"), list):
+            raise DecisionError("the export's history has no decisions list")
+        if not isinstance(history.get("audit"), list):
+            raise DecisionError("the export's history has no audit list")
+        if self.entries(include_withdrawn=True):
+            raise DecisionError("a history can only be imported into an empty decisions database")
+        fields = [f for f in Decision.__dataclass_fields__ if f != "id"]
+        decisions = []
+        for number, item in enumerate(history["decisions"], start=1):
+            try:
+                checked_decision(item["phrase"], item["action"], item["reviewer"], item["neighbour"], item["weight"])
+                decisions.append(Decision(int(item["id"]), *(item[f] for f in fields)))
+            except (KeyError, TypeError, ValueError, DecisionError) as exc:
+                raise DecisionError(f"history decision {number}: {exc}") from exc
+        known = {d.id for d in decisions}
+        audit = history["audit"]
+        for number, event in enumerate(audit, start=1):
+            if not isinstance(event, dict) or event.get("decision_id") not in known:
+                raise DecisionError(f"history audit event {number} points at no decision of the history")
+            if event.get("event") not in ("made", "withdrawn"):
+                raise DecisionError(f"history audit event {number}: unknown event")
+        return self._restore(decisions, audit)
 
     def import_(self, data: dict[str, Any], reviewer: str) -> int:
-        """Add the decisions of an export, all or none; returns how many were added."""
+        """Add the decisions of an export, all or none; returns how many were added. An export with its
+        history goes into an empty database as it was (every decision, withdrawn ones too, and the
+        audit trail; only the ids change)."""
         if not isinstance(data, dict) or data.get("format") != EXPORT_FORMAT:
             raise DecisionError(f"not a widen decisions export (expected format = {EXPORT_FORMAT})")
+        if "history" in data:
+            return self._import_history(data["history"])
         items = data.get("decisions")
         if not isinstance(items, list):
             raise DecisionError("export has no decisions list")

@@ -120,6 +120,37 @@ class SqliteDecisionStore(DecisionStore):
             conn.execute("COMMIT")
         return made
 
+    def _restore(self, decisions: list[Decision], audit: list[dict[str, Any]]) -> int:
+        with self._connect() as conn:
+            conn.execute("BEGIN IMMEDIATE")
+            if conn.execute("SELECT 1 FROM decisions LIMIT 1").fetchone() is not None:
+                conn.execute("ROLLBACK")
+                raise DecisionError("a history can only be imported into an empty decisions database")
+            new_ids = {}
+            for d in decisions:
+                cur = conn.execute(
+                    f"INSERT INTO decisions ({_COLUMNS.split(', ', 1)[1]}) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                    (
+                        d.phrase,
+                        d.neighbour,
+                        d.action,
+                        d.weight,
+                        d.reviewer,
+                        d.note,
+                        d.created_at,
+                        d.withdrawn_at,
+                        d.withdrawn_by,
+                    ),
+                )
+                new_ids[d.id] = int(cur.lastrowid or 0)
+            for e in audit:
+                conn.execute(
+                    "INSERT INTO audit (decision_id, event, reviewer, note, at) VALUES (?, ?, ?, ?, ?)",
+                    (new_ids[e["decision_id"]], e["event"], e["reviewer"], e.get("note"), e["at"]),
+                )
+            conn.execute("COMMIT")
+        return len(decisions)
+
     def withdraw(self, decision_id: int, reviewer: str, note: str | None = None) -> Decision:
         if not reviewer.strip():
             raise DecisionError("reviewer is required")

@@ -29,7 +29,7 @@ from service.review.views import compare_view, phrase_view
 from service.routes import State
 from service.state import ServiceState
 from widen.decisions import Decision
-from widen.errors import BundleError, DecisionError
+from widen.errors import BundleError, DecisionError, DecisionsUnavailable
 from widen.expansion import expand
 from widen.query_text import baseline_text
 
@@ -42,6 +42,12 @@ CSP = (
 )
 
 router = APIRouter(include_in_schema=False)
+
+#: What the page says when a write cannot reach the decisions database.
+_READ_ONLY_FOR_NOW = (
+    "Not recorded: the decisions database cannot be reached just now, so the page is read-only for now."
+    " Search keeps serving the decisions loaded last; try again in a moment."
+)
 
 
 def _environment() -> Environment:
@@ -82,6 +88,7 @@ def _page(request: Request, state: ServiceState, template: str, status: int = 20
         reviewer=unquote(request.cookies.get(REVIEWER_COOKIE, ""))[:100],
         model=serving.lexicon if serving else None,
         not_ready=state.not_ready_reason,
+        decisions_stale=state.decisions_stale,
         **values,
     )
     response = HTMLResponse(html, status_code=status)
@@ -272,6 +279,8 @@ async def decide(request: Request, state: State) -> Response:
         )
     except DecisionError as exc:
         return await _again(request, state, form, f"Not recorded: {exc}.")
+    except DecisionsUnavailable:
+        return await _again(request, state, form, _READ_ONLY_FOR_NOW)
     return await run_in_threadpool(_after_write, request, state, form, decision)
 
 
@@ -289,4 +298,6 @@ async def withdraw(request: Request, state: State) -> Response:
         )
     except (DecisionError, ValueError) as exc:
         return await _again(request, state, form, f"Not withdrawn: {exc}.")
+    except DecisionsUnavailable:
+        return await _again(request, state, form, _READ_ONLY_FOR_NOW)
     return await run_in_threadpool(_after_write, request, state, form, decision)

@@ -4,7 +4,6 @@ from __future__ import annotations
 
 from fastapi import APIRouter, Request
 from fastapi.responses import Response
-from prometheus_client import generate_latest
 from prometheus_client.exposition import CONTENT_TYPE_LATEST
 
 from service.auth import require_admin
@@ -47,13 +46,14 @@ async def readyz(state: State) -> Status:
     serving = state.serving
     if serving is None:
         raise ApiError(503, "not_ready", state.not_ready_reason)
-    return Status(status="ready", version=serving.version)
+    # Stale decisions do not make the service unready: it serves with the last ones it loaded.
+    return Status(status="ready", version=serving.version, decisions=state.decisions_stale or "current")
 
 
 @router.get("/metrics", response_class=Response, responses={200: {"content": {CONTENT_TYPE_LATEST: {}}}})
 async def metrics(state: State) -> Response:
     """Prometheus text exposition."""
-    return Response(generate_latest(state.telemetry.registry), media_type=CONTENT_TYPE_LATEST)
+    return Response(state.telemetry.exposition(), media_type=CONTENT_TYPE_LATEST)
 
 
 @router.post("/v1/admin/reload", response_model=ReloadResponse, responses=ERRORS)

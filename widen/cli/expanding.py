@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import sys
 from typing import Any
 
@@ -32,7 +33,7 @@ def expand(args: argparse.Namespace) -> int:
         )
     except ValidationError as exc:
         raise BadInput(str(exc.errors()[0]["msg"]) + f" ({exc.errors()[0]['loc'][0]})") from exc
-    decisions = open_decision_store(store).snapshot()
+    decisions = open_decision_store(store, args.decisions_url).snapshot()
     result = expand_query(lexicon, decisions, args.query, options, explain=args.explain)
     if args.json:
         print(result.model_dump_json(indent=2, exclude_none=True))
@@ -78,7 +79,7 @@ def evaluate(args: argparse.Namespace) -> int:
     except ValueError as exc:
         raise BadInput(str(exc)) from exc
     board = (truth or {}).get("board", "")
-    decisions = open_decision_store(store).snapshot()
+    decisions = open_decision_store(store, os.environ.get("WIDEN_DECISIONS_URL") or None).snapshot()
     curve = {}
     for window in days or [None]:
         what = f"the last {window} days of {args.postings}" if window else str(args.postings)

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import os
 from pathlib import Path
 
 from widen.cli import expanding, reviewing, serving, stores
@@ -102,6 +103,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("query")
     p.add_argument("--store", type=Path, required=True)
     p.add_argument("--bundle", help="a bundle version other than the current one")
+    _decisions_url(p)
     p.add_argument("--json", action="store_true", help="the result as JSON (the API's result model)")
     p.add_argument("--explain", action="store_true", help="also list the dropped neighbours and why")
     p.add_argument("--max", type=int, help="at most this many expansions a segment (default 5)")
@@ -165,6 +167,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("target", help="the phrase (for withdraw: the decision id)")
     p.add_argument("neighbour", nargs="?", help="the neighbour phrase (block and pin)")
     p.add_argument("--store", type=Path, required=True)
+    _decisions_url(p)
     p.add_argument("--reviewer", required=True, help="who decides (recorded)")
     p.add_argument("--note", help="why (recorded)")
     p.add_argument("--weight", type=float, help="pin: the boost, above 0 and below 1")
@@ -179,10 +182,28 @@ def build_parser() -> argparse.ArgumentParser:
         "  widen decisions --store /srv/widen/store --import decisions.json --reviewer ana",
     )
     p.add_argument("--store", type=Path, required=True)
+    _decisions_url(p)
+    p.add_argument(
+        "--migrate", action="store_true", help="create or migrate the decisions database's schema, then stop"
+    )
     p.add_argument("--json", action="store_true")
     p.add_argument("--all", action="store_true", help="include withdrawn decisions")
     p.add_argument("--export", type=Path, metavar="FILE", help="write the active decisions as JSON")
+    p.add_argument(
+        "--history",
+        action="store_true",
+        help="with --export: also every withdrawn decision and the audit trail (to move a whole database)",
+    )
     p.add_argument("--import", dest="import_file", type=Path, metavar="FILE", help="add the decisions of an export")
     p.add_argument("--reviewer", help="with --import: who imports (recorded)")
     p.set_defaults(handler=reviewing.decisions)
     return parser
+
+
+def _decisions_url(p: argparse.ArgumentParser) -> None:
+    p.add_argument(
+        "--decisions-url",
+        default=os.environ.get("WIDEN_DECISIONS_URL") or None,
+        metavar="URL",
+        help="a postgresql:// database shared by replicas (default: $WIDEN_DECISIONS_URL, else the store's SQLite)",
+    )

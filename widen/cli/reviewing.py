@@ -14,7 +14,7 @@ __all__ = ["decide", "decisions"]
 
 
 def decide(args: argparse.Namespace) -> int:
-    store = open_decision_store(Store(args.store))
+    store = open_decision_store(Store(args.store), args.decisions_url)
     if args.action == "withdraw":
         if not args.target.isdigit():
             raise BadInput("withdraw takes a decision id (see widen decisions)")
@@ -27,7 +27,11 @@ def decide(args: argparse.Namespace) -> int:
 
 
 def decisions(args: argparse.Namespace) -> int:
-    store = open_decision_store(Store(args.store))
+    store = open_decision_store(Store(args.store), args.decisions_url)
+    if args.migrate:
+        migrate = getattr(store, "migrate", None)
+        print(f"decisions schema at version {migrate()}" if migrate else "the store's SQLite migrates itself")
+        return EXIT_OK
     if args.import_file:
         if not args.reviewer:
             raise BadInput("--import needs --reviewer")
@@ -39,7 +43,8 @@ def decisions(args: argparse.Namespace) -> int:
         print(f"imported {added} decision(s)")
         return EXIT_OK
     if args.export:
-        args.export.write_text(json.dumps(store.export(), indent=2, ensure_ascii=False) + "\n", encoding="utf-8")
+        exported = store.export(history=args.history)
+        args.export.write_text(json.dumps(exported, indent=2, ensure_ascii=False) + "\n", encoding="utf-8")
         print(f"wrote {len(store.entries())} decision(s) to {args.export}")
         return EXIT_OK
     listed = store.entries(include_withdrawn=args.all)
