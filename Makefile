@@ -6,7 +6,7 @@ DEMO := build/demo
 STORE := build/store
 POSTINGS ?= 20000
 
-.PHONY: demo test lint bench evaluate choices ablation clean
+.PHONY: demo test lint bench evaluate choices ablation drill clean
 
 # The venv is (re)built when pyproject.toml changes.
 $(BIN)/.installed: pyproject.toml
@@ -54,6 +54,12 @@ evaluate: $(BIN)/.installed
 # Every way of building the query a front end sends, on both boards (README, "How widen builds the query").
 choices: $(BIN)/.installed
 	$(BIN)/python -m bench.choices --out build/choices
+
+# Two replicas behind nginx, one killed and restarted and a new bundle published under wrk load (README, "Failover drill").
+drill: $(BIN)/.installed $(DEMO)/postings.jsonl
+	@for tool in nginx wrk; do command -v $$tool >/dev/null 2>&1 || [ -x /usr/sbin/$$tool ] || { [ "$$(id -u)" = 0 ] && (apt-get update -qq && apt-get install -y -qq nginx-light wrk); } || { echo "the drill needs nginx and wrk"; exit 1; }; done
+	test -f $(STORE)/CURRENT || $(BIN)/widen train --corpus $(DEMO)/postings.jsonl --store $(STORE) --config demo_postings/widen.toml || [ $$? -eq 3 ]
+	$(BIN)/python -m bench.drill --demo $(DEMO) --store $(STORE) --out build/drill
 
 # widen's vectors on the real text gensim ships, stage by stage against gensim direct (README, "Real text").
 ablation: $(BIN)/.installed

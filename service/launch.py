@@ -18,12 +18,13 @@ from typing import Any
 
 from service.settings import Settings
 from widen.errors import EXIT_OK, BadInput
+from widen.remote_store import is_url, masked
 
 __all__ = ["serve"]
 
 
 def serve(
-    store: Path | None = None,
+    store: str | Path | None = None,
     host: str | None = None,
     port: int | None = None,
     workers: int | None = None,
@@ -33,14 +34,16 @@ def serve(
     # Flags become WIDEN_* variables so that every worker process reads the same settings.
     for name, value in (("STORE", store), ("HOST", host), ("PORT", port), ("WORKERS", workers)):
         if value is not None:
-            os.environ[f"WIDEN_{name}"] = str(value.resolve() if isinstance(value, Path) else value)
+            if name == "STORE" and not is_url(str(value)):
+                value = Path(str(value)).resolve()
+            os.environ[f"WIDEN_{name}"] = str(value)
     if demo_index is not None:
         os.environ["WIDEN_DEMO_INDEX"] = str(demo_index.resolve())
     settings = Settings()
-    if not settings.store.is_dir():
+    if not is_url(settings.store) and not Path(settings.store).is_dir():
         raise BadInput(f"no store at {settings.store} (train one first: widen train --corpus ... --store ...)")
     base = f"http://{settings.host}:{settings.port}"
-    print(f"widen serving {settings.store} with {settings.workers} worker(s)")
+    print(f"widen serving {masked(str(settings.store))} with {settings.workers} worker(s)")
     print(f"  API           {base}/v1/expand?q=lorry+driver")
     print(f"  OpenAPI       {base}/openapi.json  (browsable at {base}/docs)")
     print(f"  health        {base}/healthz  {base}/readyz  {base}/metrics")

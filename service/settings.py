@@ -15,7 +15,13 @@ class Settings(BaseSettings):
 
     model_config = SettingsConfigDict(env_prefix="WIDEN_", extra="ignore")
 
-    store: Path = Field(default=Path("store"), description="the store folder to serve")
+    store: str | Path = Field(
+        default="store", description="the store folder to serve, or a store's URL (http(s)://, file://, fsspec)"
+    )
+    # For a store given by URL: the local folder its bundles are mirrored into (default: a folder
+    # under the system's temporary folder named after the URL). Any writable folder; an emptyDir.
+    mirror: Path | None = None
+    mirror_timeout_seconds: float = Field(default=10.0, gt=0)
     host: str = "127.0.0.1"
     port: int = Field(default=8000, ge=0, le=65535)
     workers: int = Field(default=1, ge=1, le=64)

@@ -14,6 +14,7 @@ import threading
 import time
 from collections.abc import Callable
 from dataclasses import dataclass
+from pathlib import Path
 
 from service.cache import ResultCache
 from service.settings import Settings
@@ -25,6 +26,7 @@ from widen.evaluation.index import SearchIndex
 from widen.expansion import prepare
 from widen.lexicon import Lexicon
 from widen.options import ExpansionOptions
+from widen.remote_store import StoreMirror, is_url, mirror_folder
 from widen.store import Store
 
 __all__ = ["Serving", "ServiceState"]
@@ -49,7 +51,15 @@ class ServiceState:
 
     def __init__(self, settings: Settings, telemetry: Telemetry | None = None) -> None:
         self.settings = settings
-        self.store = Store(settings.store)
+        #: For a store given by URL, what keeps the local mirror in step (None for a local store).
+        self.mirror: StoreMirror | None = None
+        if is_url(settings.store):
+            self.mirror = StoreMirror(
+                str(settings.store), mirror_folder(settings), timeout=settings.mirror_timeout_seconds
+            )
+            self.store = self.mirror.store
+        else:
+            self.store = Store(Path(settings.store))
         url = settings.decisions_url.get_secret_value() if settings.decisions_url else None
         self.decision_store = open_decision_store(self.store, url)
         #: Why the decisions in use may be out of date (the database cannot be reached), else None.
@@ -83,6 +93,12 @@ class ServiceState:
     def check(self) -> str:
         """Load CURRENT if it changed; returns what happened (unchanged, loaded, refused, none)."""
         with self._lock:
+            if self.mirror is not None:
+                synced = self.mirror.sync()
+                if synced == "failed":
+                    self.telemetry.store_failures.inc()
+                    if self.serving is None:
+                        self.not_ready_reason = f"the store could not be mirrored: {self.mirror.last_error}"
             version = self.store.current_version()
             if version is None:
                 if self.serving is None:

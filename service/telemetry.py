@@ -47,6 +47,9 @@ class Telemetry:
         )
         self.reloads = Counter("widen_reloads", "bundles loaded", registry=self.registry)
         self.refused = Counter("widen_reloads_refused", "bundles refused (failed verification)", registry=self.registry)
+        self.store_failures = Counter(
+            "widen_store_sync_failures", "failed tries to mirror a store given by URL", registry=self.registry
+        )
         self.ready = Gauge(
             "widen_ready", "1 while a verified bundle serves", registry=self.registry, multiprocess_mode="livemin"
         )

@@ -30,8 +30,11 @@ class LiveServer:
 
 
 @contextmanager
-def live_server(store: Path, env: dict[str, str] | None = None, args: tuple[str, ...] = ()) -> Iterator[LiveServer]:
-    """Start `widen serve` on `store`, wait until /readyz answers 200, stop it with SIGINT after."""
+def live_server(
+    store: Path | str, env: dict[str, str] | None = None, args: tuple[str, ...] = ()
+) -> Iterator[LiveServer]:
+    """Start `widen serve` on `store` (a folder or a store's URL), wait until /readyz answers 200, stop
+    it with SIGINT after."""
     port = free_port()
     process = subprocess.Popen(
         [sys.executable, "-m", "widen.cli", "serve", "--store", str(store), "--port", str(port), *args],

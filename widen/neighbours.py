@@ -74,9 +74,11 @@ def top_k_table(
     sims_out = np.zeros((vocab, k), dtype=np.float32)
     if k == 0:
         return indices, sims_out
+    # One block's buffer, reused: a new product never lives beside the last one.
+    buffer = np.empty((min(block_rows, vocab), vocab), dtype=np.float32)
     for start in range(0, vocab, block_rows):
         stop = min(start + block_rows, vocab)
-        sims = normed[start:stop] @ normed.T
+        sims = np.matmul(normed[start:stop], normed.T, out=buffer[: stop - start])
         rows = np.arange(stop - start)
         sims[rows, rows + start] = -np.inf
         # Picking runs on a few rows at a time: its temporaries (a mask and a partition of every

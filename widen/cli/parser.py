@@ -85,7 +85,7 @@ def build_parser() -> argparse.ArgumentParser:
         epilog="examples:\n  widen serve --store build/store\n"
         "  WIDEN_ADMIN_TOKEN=s3cret widen serve --store /srv/widen/store --host 0.0.0.0 --port 8080 --workers 2",
     )
-    p.add_argument("--store", type=Path)
+    p.add_argument("--store", help="the store folder, or its URL (http(s)://, file://; served from a local mirror)")
     p.add_argument("--host")
     p.add_argument("--port", type=int)
     p.add_argument("--workers", type=int)

@@ -1,0 +1,262 @@
+"""`make drill`: two replicas behind a real load balancer; one is killed and restarted, and a new
+bundle is published, under load.
+
+Debian's nginx on loopback balances two `widen serve` replicas that read their bundles from a store
+URL (Python's http.server serving the store folder), retrying an idempotent GET on the other
+replica when one fails (`proxy_next_upstream error timeout http_502 http_503`). wrk replays the
+day's query log through nginx in three phases: `before`; `during`, in which replica A is killed
+with SIGKILL, a new bundle is published, and A is started again; and `after`. A client beside wrk
+checks that every answer is whole JSON from one of the two bundles. Reported: requests, failed
+requests (non-2xx and socket errors), p50/p99/max per phase, and how long each replica took to
+serve the new bundle.
+
+    python -m bench.drill --demo build/demo --out build/drill [--seconds 10]
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import shutil
+import signal
+import subprocess
+import sys
+import tempfile
+import threading
+import time
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Any
+
+import httpx
+
+from bench.common import ROOT, machine
+from bench.traffic import LUA, log_paths
+from tests.live_server import free_port
+from widen.clock import new_version
+from widen.store import Store
+
+__all__ = ["run_drill", "main"]
+
+_NGINX = """
+worker_processes 1;
+pid {root}/nginx.pid;
+error_log {root}/error.log warn;
+events {{ worker_connections 1024; }}
+http {{
+    access_log off;
+    client_body_temp_path {root}/body;
+    proxy_temp_path {root}/proxy;
+    fastcgi_temp_path {root}/fastcgi;
+    uwsgi_temp_path {root}/uwsgi;
+    scgi_temp_path {root}/scgi;
+    upstream widen {{
+        server 127.0.0.1:{a} max_fails=1 fail_timeout=2s;
+        server 127.0.0.1:{b} max_fails=1 fail_timeout=2s;
+        keepalive 32;
+    }}
+    server {{
+        listen 127.0.0.1:{port};
+        location / {{
+            proxy_pass http://widen;
+            proxy_http_version 1.1;
+            proxy_set_header Connection "";
+            proxy_connect_timeout 1s;
+            proxy_read_timeout 10s;
+            proxy_next_upstream error timeout http_502 http_503;
+            proxy_next_upstream_tries 2;
+        }}
+    }}
+}}
+"""
+
+
+def _wait(url: str, seconds: float = 60) -> None:
+    deadline = time.monotonic() + seconds
+    while True:
+        try:
+            if httpx.get(url, timeout=1).status_code == 200:
+                return
+        except httpx.TransportError:
+            pass
+        if time.monotonic() > deadline:
+            raise RuntimeError(f"{url} did not answer 200 in {seconds} s")
+        time.sleep(0.1)
+
+
+def _replica(store_url: str, port: int, mirror: Path) -> subprocess.Popen[bytes]:
+    env = {**os.environ, "WIDEN_ACCESS_LOG": "false", "WIDEN_POLL_SECONDS": "1", "WIDEN_MIRROR": str(mirror)}
+    return subprocess.Popen(
+        [sys.executable, "-m", "widen.cli", "serve", "--store", store_url, "--port", str(port)],
+        env=env,
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.DEVNULL,
+        cwd=ROOT,
+    )
+
+
+@contextmanager
+def _running(command: list[str], cwd: Path | None = None) -> Iterator[subprocess.Popen[bytes]]:
+    process = subprocess.Popen(command, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, cwd=cwd)
+    try:
+        yield process
+    finally:
+        if process.poll() is None:
+            process.terminate()
+            process.wait(timeout=20)
+
+
+def _wrk(base: str, seconds: float, paths: Path) -> dict[str, Any]:
+    out = subprocess.run(
+        ["wrk", "-t2", "-c16", f"-d{max(1, round(seconds))}s", "-s", str(LUA), base, "--", str(paths), "2"],
+        capture_output=True,
+        text=True,
+        check=True,
+    ).stdout
+    line = json.loads(next(x for x in out.splitlines() if x.startswith("{")))
+    return {
+        "requests": line["requests"],
+        "failed": line["non_2xx"] + line["socket_errors"],
+        "p50_ms": round(line["p50_us"] / 1000, 2),
+        "p99_ms": round(line["p99_us"] / 1000, 2),
+        "max_ms": round(line["max_us"] / 1000, 2),
+    }
+
+
+def _publish(store: Path) -> str:
+    """A new bundle as the trainer publishes one: the files first, the pointer last."""
+    s = Store(store)
+    current = s.current_version() or ""
+    version = new_version(current)
+    shutil.copytree(s.bundle_dir(current), s.bundle_dir(version))
+    manifest_path = s.bundle_dir(version) / "manifest.json"
+    manifest = json.loads(manifest_path.read_text(encoding="utf-8"))
+    manifest["version"] = version
+    manifest_path.write_text(json.dumps(manifest), encoding="utf-8")
+    s.set_current(version, by="drill")
+    return version
+
+
+def run_drill(store: Path, demo: Path, work: Path, seconds: float = 10.0) -> dict[str, Any]:
+    """The drill on a copy of `store`; `seconds` per phase."""
+    nginx = shutil.which("nginx") or "/usr/sbin/nginx"
+    if not Path(nginx).exists() or shutil.which("wrk") is None:
+        raise RuntimeError("the drill needs nginx and wrk (apt-get install nginx-light wrk)")
+    published = work / "published"
+    shutil.copytree(store, published, ignore=shutil.ignore_patterns("decisions.sqlite*", "search-index", ".lock"))
+    old = Store(published).current_version()
+    paths, _, _ = log_paths(demo / "query_log.jsonl", work / "drill-paths.txt")
+    static_port, a_port, b_port, lb_port = (free_port() for _ in range(4))
+    root = Path(tempfile.mkdtemp(prefix="widen-drill-nginx-"))
+    (root / "nginx.conf").write_text(_NGINX.format(root=root, a=a_port, b=b_port, port=lb_port), encoding="utf-8")
+    base = f"http://127.0.0.1:{lb_port}"
+    store_url = f"http://127.0.0.1:{static_port}"
+    static = [
+        sys.executable,
+        "-m",
+        "http.server",
+        str(static_port),
+        "--bind",
+        "127.0.0.1",
+        "--directory",
+        str(published),
+    ]
+    results: dict[str, Any] = {}
+    with _running(static):
+        _wait(f"{store_url}/CURRENT")
+        replicas = {
+            "a": _replica(store_url, a_port, work / "mirror-a"),
+            "b": _replica(store_url, b_port, work / "mirror-b"),
+        }
+        try:
+            for port in (a_port, b_port):
+                _wait(f"http://127.0.0.1:{port}/readyz")
+            with _running([nginx, "-c", str(root / "nginx.conf"), "-g", "daemon off;"]):
+                _wait(f"{base}/healthz")
+                seen: dict[str, int] = {}
+                broken: list[str] = []
+                stop = threading.Event()
+
+                def check() -> None:  # whole JSON from one of the two bundles, or a failure noted
+                    while not stop.is_set():
+                        try:
+                            got = httpx.get(f"{base}/v1/expand", params={"q": "care assistant"}, timeout=10)
+                            version = got.json()["model"]["version"]
+                            seen[version] = seen.get(version, 0) + 1
+                        except (httpx.HTTPError, ValueError, KeyError) as exc:
+                            broken.append(type(exc).__name__)
+
+                checker = threading.Thread(target=check)
+                checker.start()
+                results["before"] = _wrk(base, seconds, paths)
+                during: dict[str, Any] = {}
+                events: dict[str, float] = {}
+
+                def disrupt() -> None:
+                    started = time.monotonic()
+                    time.sleep(seconds * 0.2)
+                    replicas["a"].send_signal(signal.SIGKILL)
+                    events["killed_a_s"] = round(time.monotonic() - started, 2)
+                    time.sleep(seconds * 0.2)
+                    events["new_bundle"] = _publish(published)  # type: ignore[assignment]
+                    events["published_s"] = round(time.monotonic() - started, 2)
+                    time.sleep(seconds * 0.2)
+                    replicas["a"] = _replica(store_url, a_port, work / "mirror-a")
+                    events["restarted_a_s"] = round(time.monotonic() - started, 2)
+
+                disrupter = threading.Thread(target=disrupt)
+                disrupter.start()
+                during.update(_wrk(base, seconds * 1.5, paths))
+                disrupter.join()
+                results["during"] = {**during, **events}
+                new = str(events["new_bundle"])
+                for name, port in (("a", a_port), ("b", b_port)):
+                    deadline = time.monotonic() + 30
+                    while True:
+                        try:
+                            if httpx.get(f"http://127.0.0.1:{port}/v1/model", timeout=1).json()["version"] == new:
+                                break
+                        except (httpx.HTTPError, ValueError, KeyError):
+                            pass
+                        if time.monotonic() > deadline:
+                            raise RuntimeError(f"replica {name} never served {new}")
+                        time.sleep(0.1)
+                results["after"] = _wrk(base, seconds, paths)
+                stop.set()
+                checker.join(timeout=30)
+                results["answers_by_bundle"] = seen
+                results["bundles"] = {"old": old, "new": new}
+                results["half_loaded_or_broken_answers"] = len(broken) + sum(
+                    n for v, n in seen.items() if v not in (old, new)
+                )
+        finally:
+            for process in replicas.values():
+                if process.poll() is None:
+                    process.terminate()
+                    process.wait(timeout=20)
+            shutil.rmtree(root, ignore_errors=True)
+    results["failed_total"] = sum(results[p]["failed"] for p in ("before", "during", "after"))
+    results["requests_total"] = sum(results[p]["requests"] for p in ("before", "during", "after"))
+    return results
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("--demo", type=Path, default=ROOT / "build" / "demo")
+    parser.add_argument("--store", type=Path, default=ROOT / "build" / "store")
+    parser.add_argument("--out", type=Path, default=ROOT / "build" / "drill")
+    parser.add_argument("--seconds", type=float, default=10.0)
+    args = parser.parse_args()
+    out = args.out.resolve()
+    shutil.rmtree(out, ignore_errors=True)
+    out.mkdir(parents=True)
+    results = {"machine": machine(), "date": time.strftime("%Y-%m-%d")}
+    results.update(run_drill(args.store.resolve(), args.demo.resolve(), out, args.seconds))
+    (out / "drill.json").write_text(json.dumps(results, indent=2) + "\n", encoding="utf-8")
+    print(json.dumps(results, indent=2))
+
+
+if __name__ == "__main__":
+    main()
