@@ -7,8 +7,8 @@ replica when one fails (`proxy_next_upstream error timeout http_502 http_503`). 
 day's query log through nginx in three phases: `before`; `during`, in which replica A is killed
 with SIGKILL, a new bundle is published, and A is started again; and `after`. A client beside wrk
 checks that every answer is whole JSON from one of the two bundles. Reported: requests, failed
-requests (non-2xx and socket errors), p50/p99/max per phase, and how long each replica took to
-serve the new bundle.
+requests (non-2xx and socket errors), p50/p99/max per phase, and when each event happened; the
+`after` phase starts only once both replicas serve the new bundle (within 30 s, or the drill fails).
 
     python -m bench.drill --demo build/demo --out build/drill [--seconds 10]
 """
