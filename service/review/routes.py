@@ -99,21 +99,28 @@ def _page(request: Request, state: ServiceState, template: str, status: int = 20
     return response
 
 
+def _entries(state: ServiceState, include_withdrawn: bool = False) -> list[Decision]:
+    """The decisions to list; none while their database is away (the page then says it is read-only
+    for now, and the expansions shown still apply the decisions loaded last)."""
+    try:
+        return state.decision_store.entries(include_withdrawn=include_withdrawn)
+    except DecisionsUnavailable:
+        return []
+
+
 def _phrase_page(
     request: Request, state: ServiceState, q: str, compare: str, status: int = 200, error: str = "", done: str = ""
 ) -> HTMLResponse:
     serving = state.serving
     values: dict[str, Any] = {"q": q, "compare": compare, "error": error, "bundles": state.store.listing()}
     if done:
-        values["done_decision"] = next(
-            (d for d in state.decision_store.entries(include_withdrawn=True) if str(d.id) == done), None
-        )
+        values["done_decision"] = next((d for d in _entries(state, include_withdrawn=True) if str(d.id) == done), None)
     if serving is None or not q.strip():
         return _page(request, state, "review_phrase.html", status, result=None, views=[], **values)
     q = q[: state.settings.max_query_chars]
     options = serving.options
     result, views = phrase_view(serving.lexicon, state.decisions, q, options)
-    active = state.decision_store.entries()
+    active = _entries(state)
     views = [replace(v, decisions=[d for d in active if d.phrase == v.text]) for v in views]
     values.update(result=result, views=views)
     if compare and compare != serving.version:
@@ -158,7 +165,7 @@ def decisions_page(
     reviewer: str = "",
     shown: str = Query(default="active", alias="state"),
 ) -> HTMLResponse:
-    rows = state.decision_store.entries(include_withdrawn=True)
+    rows = _entries(state, include_withdrawn=True)
     if phrase:
         rows = [d for d in rows if phrase.lower() in d.phrase or (d.neighbour and phrase.lower() in d.neighbour)]
     if action in ("block", "pin", "exempt"):
@@ -170,7 +177,10 @@ def decisions_page(
     elif shown == "withdrawn":
         rows = [d for d in rows if d.withdrawn_at is not None]
     ids = {d.id for d in rows}
-    trail = [a for a in state.decision_store.audit() if a["decision_id"] in ids]
+    try:
+        trail = [a for a in state.decision_store.audit() if a["decision_id"] in ids]
+    except DecisionsUnavailable:
+        trail = []
     filters = {"phrase": phrase, "action": action, "reviewer": reviewer, "state": shown}
     return _page(request, state, "review_decisions.html", decisions=rows, trail=trail, filters=filters)
 
