@@ -83,6 +83,7 @@ class Lexicon:
         #: Results that depend on this bundle alone, worked out once per key (`remember`).
         self.memo: dict[object, Any] = {}
         self._option_keys: dict[int, tuple[ExpansionOptions, str]] = {}
+        self._vocabulary_of: dict[int, tuple[ExpansionOptions, Vocabulary]] = {}
         #: How close two titles with different duties are in skip-gram space in this bundle, by quantile.
         self._apart: dict[float, float | None] = {}
         #: Every word of every place and employer name.
@@ -187,7 +188,11 @@ class Lexicon:
         return (options.noise_words, options.modifiers, tuple(sorted(options.patterns.items())), options.spelling)
 
     def vocabulary(self, options: ExpansionOptions) -> Vocabulary:
-        """Segmentation's view of this bundle under `options`, built once per set of options."""
+        """Segmentation's view of this bundle under `options`, built once per set of options (and
+        found again without looking at the options when the same options object asks)."""
+        seen = self._vocabulary_of.get(id(options))
+        if seen is not None and seen[0] is options:
+            return seen[1]
         marker = self._marker(options)
         found = self._vocabularies.get(marker)
         if found is None:
@@ -203,6 +208,9 @@ class Lexicon:
                     self.correct if options.spelling else _no_correction,
                 )
                 self._vocabularies[marker] = found
+        if len(self._vocabulary_of) >= 1024:
+            self._vocabulary_of.clear()
+        self._vocabulary_of[id(options)] = (options, found)  # holds the options: their id stays theirs
         return found
 
     def pattern_spellings(self, options: ExpansionOptions) -> dict[str, str]:
