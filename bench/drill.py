@@ -192,7 +192,7 @@ def run_drill(store: Path, demo: Path, work: Path, seconds: float = 10.0) -> dic
                 checker.start()
                 results["before"] = _wrk(base, seconds, paths)
                 during: dict[str, Any] = {}
-                events: dict[str, float] = {}
+                events: dict[str, Any] = {}
 
                 def disrupt() -> None:
                     started = time.monotonic()
@@ -200,7 +200,7 @@ def run_drill(store: Path, demo: Path, work: Path, seconds: float = 10.0) -> dic
                     replicas["a"].send_signal(signal.SIGKILL)
                     events["killed_a_s"] = round(time.monotonic() - started, 2)
                     time.sleep(seconds * 0.2)
-                    events["new_bundle"] = _publish(published)  # type: ignore[assignment]
+                    events["new_bundle"] = _publish(published)
                     events["published_s"] = round(time.monotonic() - started, 2)
                     time.sleep(seconds * 0.2)
                     replicas["a"] = _replica(store_url, a_port, work / "mirror-a")

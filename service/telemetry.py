@@ -66,7 +66,10 @@ class Telemetry:
     def serving(self, version: str) -> None:
         """Say which bundle serves (the model info and the ready gauge), without counting a load."""
         if self._version is not None and self._version != version:
-            self.model.labels(self._version).set(0)
+            if self.shared:  # a worker's series lives in its file: it can only go to 0
+                self.model.labels(self._version).set(0)
+            else:  # one series, as an Info metric would show: the old version's goes away
+                self.model.remove(self._version)
         self.model.labels(version).set(1)
         self._version = version
         self.ready.set(1)

@@ -255,6 +255,9 @@ def test_hot_swap_under_load_fails_no_request(client: TestClient, store_copy: Pa
     assert client.get("/readyz").json()["version"] == new
     metrics = client.get("/metrics").text
     assert "widen_reloads_refused_total 1.0" in metrics
+    # One model series, the serving bundle's, as an Info metric shows it (the old one went away).
+    info = [s for f in text_string_to_metric_families(metrics) for s in f.samples if s.name == "widen_model_info"]
+    assert [(s.labels["version"], s.value) for s in info] == [(new, 1.0)]
 
 
 @pytest.mark.parametrize("cache_size", [0, 10000])
