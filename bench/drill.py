@@ -119,6 +119,8 @@ def _wrk(base: str, seconds: float, paths: Path) -> dict[str, Any]:
     return {
         "requests": line["requests"],
         "failed": line["non_2xx"] + line["socket_errors"],
+        "non_2xx": line["non_2xx"],
+        "socket_errors": {k: line[k] for k in ("connect", "read", "write", "timeout")},
         "p50_ms": round(line["p50_us"] / 1000, 2),
         "p99_ms": round(line["p99_us"] / 1000, 2),
         "max_ms": round(line["max_us"] / 1000, 2),
@@ -232,6 +234,9 @@ def run_drill(store: Path, demo: Path, work: Path, seconds: float = 10.0) -> dic
                     n for v, n in seen.items() if v not in (old, new)
                 )
         finally:
+            log = root / "error.log"
+            if log.exists():  # what nginx saw go wrong upstream (it retried those it could)
+                results["nginx_upstream_errors"] = [x for x in log.read_text().splitlines() if "upstream" in x][-8:]
             for process in replicas.values():
                 if process.poll() is None:
                     process.terminate()

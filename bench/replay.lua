@@ -34,7 +34,8 @@ end
 function done(summary, latency, requests)
   local e = summary.errors
   io.write(string.format(
-    '{"requests": %d, "seconds": %.3f, "p50_us": %d, "p99_us": %d, "max_us": %d, "non_2xx": %d, "socket_errors": %d}\n',
+    '{"requests": %d, "seconds": %.3f, "p50_us": %d, "p99_us": %d, "max_us": %d, "non_2xx": %d, "socket_errors": %d,'
+      .. ' "connect": %d, "read": %d, "write": %d, "timeout": %d}\n',
     summary.requests, summary.duration / 1e6, latency:percentile(50), latency:percentile(99), latency.max,
-    e.status, e.connect + e.read + e.write + e.timeout))
+    e.status, e.connect + e.read + e.write + e.timeout, e.connect, e.read, e.write, e.timeout))
 end
