@@ -1,14 +1,14 @@
 """The neighbour table against the floor of any exact method: the bare blocked product V @ V.T.
 
-`top_k_table` multiplies a block of rows by the whole matrix and picks each row's top k. The
-floor is the whole product `V @ V.T` in row blocks written into one reused buffer, at the
-fastest of a few block sizes, with nothing picked (the floor of an exact method that computes
-every similarity once). The two are timed in turns (order alternating, after a warm-up round),
+The floor is the whole product `V @ V.T` in row blocks written into one reused buffer, at the
+fastest of a few block sizes, with nothing picked (an exact method that computes every
+similarity once can do no less). The table and the floor are timed in turns (order alternating,
+after a warm-up round, each side started once the other's BLAS threads have stopped spinning),
 median of the rounds. The table is checked against a full sort of every similarity for sampled
 rows (identical indices wherever the similarities are not tied within float rounding) and
 against gensim's `most_similar` on the demo bundle. The scale run builds the table for 200,000
 random 100-dimensional entries in a separate process and reports its time and peak memory above
-the arrays it holds (the vectors and the k-wide outputs), against one block's size.
+the arrays it holds (the vectors and the k-wide outputs), against one 2,048-row block's size.
 """
 
 from __future__ import annotations
@@ -25,6 +25,7 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from bench.common import settle
 from widen.neighbours import normalise_rows, top_k_table
 from widen.store import Store
 
@@ -76,6 +77,7 @@ def _timed_rounds(normed: npt.NDArray[np.float32], k: int, rounds: int) -> dict[
     table_s, bare_s, blocks = [], [], []
     for n in range(rounds):
         for side in ("table", "bare") if n % 2 == 0 else ("bare", "table"):
+            settle()  # the last side's BLAS threads stop spinning before this side starts
             if side == "table":
                 started = time.perf_counter()
                 top_k_table(normed, k)
