@@ -5,6 +5,9 @@ from __future__ import annotations
 from pathlib import Path
 
 import numpy as np
+import pytest
+from hypothesis import given
+from hypothesis import strategies as st
 
 from widen.neighbours import normalise_rows, top_k_for_vector, top_k_table
 from widen.store import Store
@@ -56,3 +59,70 @@ def test_vector_search_equals_brute_force_numpy() -> None:
     order = np.argsort(-brute, kind="stable")[:12]
     assert np.array_equal(idx, order)
     assert np.allclose(sims, brute[order], atol=1e-6)
+
+
+def _full_sort(normed: np.ndarray, k: int) -> tuple[np.ndarray, np.ndarray]:
+    """Reference: every similarity of every row sorted (similarity descending, index ascending),
+    the row itself left out; plain numpy, no blocking, no heaps."""
+    sims = normed @ normed.T
+    np.fill_diagonal(sims, -np.inf)
+    order = np.lexsort((np.broadcast_to(np.arange(len(sims)), sims.shape), -sims), axis=1)[:, :k]
+    return order, np.take_along_axis(sims, order, axis=1)
+
+
+def test_table_equals_full_sort_with_floors_in_use() -> None:
+    # 3,000 entries: large enough that each row starts from a sampled floor (widen.neighbours._floors).
+    rng = np.random.default_rng(8)
+    normed = normalise_rows(rng.normal(size=(3000, 16)))
+    idx, sims = top_k_table(normed, 20, block_rows=256)
+    ref_idx, ref_sims = _full_sort(normed, 20)
+    assert np.allclose(sims, ref_sims, atol=1e-6)
+    differ = idx != ref_idx
+    # Only a tie (equal within float rounding) may swap two entries.
+    assert np.all(np.abs(sims[differ] - ref_sims[differ]) < 1e-6)
+
+
+def test_ties_are_ordered_by_index() -> None:
+    # Every vector three times: each row's neighbours come in tied pairs and triples.
+    rng = np.random.default_rng(9)
+    base = normalise_rows(rng.normal(size=(40, 6)))
+    normed = np.ascontiguousarray(np.repeat(base, 3, axis=0))
+    idx, sims = top_k_table(normed, 10, block_rows=16)
+    assert np.all(np.diff(sims, axis=1) <= 0)  # by similarity descending
+    tied = sims[:, 1:] == sims[:, :-1]
+    assert tied.sum() > len(normed)  # the data does tie
+    assert np.all(idx[:, 1:][tied] > idx[:, :-1][tied])  # equal similarities: lower index first
+    # The copies of a row's own vector (similarity 1) always come first.
+    for i in range(len(normed)):
+        twins = {3 * (i // 3) + n for n in range(3)} - {i}
+        assert set(idx[i, :2].tolist()) == twins
+
+
+def test_rows_with_a_floor_too_high_are_done_again(monkeypatch: pytest.MonkeyPatch) -> None:
+    import widen.neighbours as neighbours
+
+    rng = np.random.default_rng(10)
+    normed = normalise_rows(rng.normal(size=(500, 12)))
+
+    def too_high(matrix: np.ndarray, k: int) -> np.ndarray:
+        floors = np.full(len(matrix), -np.inf, dtype=np.float32)
+        floors[::3] = 0.999  # almost nothing is that close: these rows come out short
+        return floors
+
+    monkeypatch.setattr(neighbours, "_floors", too_high)
+    idx, sims = neighbours.top_k_table(normed, 15, block_rows=64)
+    ref_idx, ref_sims = _full_sort(normed, 15)
+    assert np.array_equal(idx, ref_idx)
+    assert np.allclose(sims, ref_sims, atol=1e-6)
+
+
+@given(st.integers(min_value=1, max_value=23))
+def test_every_pair_of_blocks_once_and_no_block_twice_in_a_round(blocks: int) -> None:
+    from widen.neighbours import _rounds
+
+    seen = []
+    for first, second in _rounds(blocks):
+        in_round = [*first.tolist(), *[b for a, b in zip(first, second, strict=True) if a != b]]
+        assert len(in_round) == len(set(in_round))  # two threads never touch one block's heaps
+        seen += list(zip(first.tolist(), second.tolist(), strict=True))
+    assert sorted(seen) == [(a, b) for a in range(blocks) for b in range(a, blocks)]

@@ -84,7 +84,7 @@ class EmbeddingSection(_Section):
 
 class NeighboursSection(_Section):
     top_k: int = Field(default=50, ge=1, le=1000)
-    block_rows: int = Field(default=2048, ge=1)
+    block_rows: int = Field(default=512, ge=1)  # the side of a square tile of V @ V.T
 
 
 class DutiesSection(_Section):
