@@ -4,13 +4,11 @@ from __future__ import annotations
 
 import json
 import logging
+import os
 import time
-import uuid
 from collections.abc import Awaitable, Callable, MutableMapping
 from typing import Any
 from urllib.parse import parse_qsl
-
-from fastapi.responses import Response
 
 from service.cache import ResultCache
 from service.errors import ApiError, error_response
@@ -77,6 +75,21 @@ class Edge:
     def __init__(self, app: ASGIApp, state: ServiceState) -> None:
         self.app, self.state = app, state
         self.settings, self.telemetry, self.cache = state.settings, state.telemetry, state.cache
+        # Each route's metric series, found once: `labels()` takes a lock and builds a key every call.
+        self._counters: dict[tuple[str, int], Any] = {}
+        self._timers: dict[str, Any] = {}
+
+    def _counter(self, route: str, code: int) -> Any:
+        found = self._counters.get((route, code))
+        if found is None:  # routes and status codes are few: the dict stays small
+            found = self._counters[route, code] = self.telemetry.requests.labels(route, str(code))
+        return found
+
+    def _timer(self, route: str) -> Any:
+        found = self._timers.get(route)
+        if found is None:
+            found = self._timers[route] = self.telemetry.latency.labels(route)
+        return found
 
     def _get_key(self, scope: Scope) -> tuple[object, ...] | None:
         if scope["method"] != "GET" or scope.get("path") != "/v1/expand" or self.cache.size <= 0:
@@ -128,7 +141,7 @@ class Edge:
                 found = self.cache.get(key)
                 if found is not None:
                     self.telemetry.cache_hits.inc()
-                    await Response(found, media_type="application/json")(scope, receive, send_with_id)
+                    await _send_json(send_with_id, found)
                     return
                 self.telemetry.cache_misses.inc()
                 scope["widen.edge_caches"] = True  # the handler need not cache this response again
@@ -137,7 +150,7 @@ class Edge:
             if query is not None:
                 body = self._expanded(query)
                 if body is not None:  # kept by _keep_body when the cache is on
-                    await Response(body, media_type="application/json")(scope, receive, send_with_id)
+                    await _send_json(send_with_id, body)
                     return
             if scope["method"] in ("POST", "PUT", "PATCH", "DELETE"):
                 body = await _read_limited(receive, self.settings.max_body_bytes)
@@ -153,8 +166,8 @@ class Edge:
             path = scope.get("path", "")
             route = route_label(path)
             seconds = time.perf_counter() - started
-            self.telemetry.requests.labels(route, str(status["code"])).inc()
-            self.telemetry.latency.labels(route).observe(seconds)
+            self._counter(route, status["code"]).inc()
+            self._timer(route).observe(seconds)
             if self.settings.access_log:
                 access_log.info(
                     json.dumps(
@@ -186,6 +199,13 @@ def _keep_body(send: Send, cache: ResultCache[bytes], key: tuple[object, ...]) -
     return send_and_keep
 
 
+async def _send_json(send: Send, body: bytes) -> None:
+    """A 200 with a JSON body: the two messages, and headers, that Starlette's Response sends."""
+    headers = [(b"content-length", str(len(body)).encode()), (b"content-type", b"application/json")]
+    await send({"type": "http.response.start", "status": 200, "headers": headers})
+    await send({"type": "http.response.body", "body": body})
+
+
 def _request_id(scope: Scope) -> str:
     for name, value in scope.get("headers", []):
         if name == b"x-request-id":
@@ -193,7 +213,7 @@ def _request_id(scope: Scope) -> str:
             if 0 < len(text) <= 128 and text.isascii() and text.isprintable():
                 return text
             break
-    return uuid.uuid4().hex
+    return os.urandom(16).hex()  # 128 random bits, as a UUID4 has 122
 
 
 async def _read_limited(receive: Receive, limit: int) -> bytes | None:

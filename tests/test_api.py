@@ -287,6 +287,10 @@ def test_edge_answers_a_plain_get_with_the_routes_bytes(
             assert at_edge.status_code == routed.status_code == 200
             assert at_edge.content == routed.content, q
             assert at_edge.headers["content-type"] == routed.headers["content-type"] == "application/json"
+            # Every header, in order, but the request id (new each request).
+            assert [h for h in at_edge.headers.raw if h[0] != b"x-request-id"] == [
+                h for h in routed.headers.raw if h[0] != b"x-request-id"
+            ]
         # The plain GETs were expanded at the edge (once each distinct query when the cache is on).
         assert len(at_the_edge) == (len(set(queries)) if cache_size else len(queries))
         for bad, code in (("", None), ("   ", "empty_query"), ("x" * 257, None), ("?!", "empty_query")):

@@ -24,7 +24,7 @@ from widen.candidates import candidates, fixed_filters, segment_vector
 from widen.decisions import DecisionSet, PhraseDecisions
 from widen.lexicon import Lexicon
 from widen.options import ExpansionOptions
-from widen.query_text import JOBS, baseline_text, merged_text, render, words_text
+from widen.query_text import JOBS, merged_text, render, segments_baseline, segments_words
 from widen.result import Clause, Dropped, DropReason, Expansion, ExpansionResult, ModelInfo, Segment
 from widen.segment import Piece, segment_query
 from widen.text import PHRASE_JOINER, display, form, key_of
@@ -172,19 +172,25 @@ def _expand_piece_now(
     return kept, dropped
 
 
-def _context(lex: Lexicon, pieces: list[Piece], s: int) -> _Context:
+def _contexts(lex: Lexicon, pieces: list[Piece]) -> list[_Context]:
+    """Each segment's `_Context`; the words of the query's job segments are worked out once."""
     jobs = [p for p in pieces if p.kind in JOBS]
     words = frozenset(w for p in jobs for w in p.key.split(PHRASE_JOINER))
-    piece = pieces[s]
-    beside = [pieces[n] for n in (s - 1, s + 1) if 0 <= n < len(pieces)]
-    head = PHRASE_JOINER not in piece.key and piece.kind in JOBS and any(p.kind in JOBS for p in beside)
-    whole = None
-    if head:
+    plain = _Context(words, False, None)
+    out = []
+    for s, piece in enumerate(pieces):
+        beside = [pieces[n] for n in (s - 1, s + 1) if 0 <= n < len(pieces)]
+        head = PHRASE_JOINER not in piece.key and piece.kind in JOBS and any(p.kind in JOBS for p in beside)
+        if not head:
+            out.append(plain)
+            continue
+        whole = None
         known = [lex.index[w] for p in jobs for w in ([p.key] if p.key in lex.index else p.parts)]
         if len(known) > 1:
             mean = np.asarray(lex.normed[known]).mean(axis=0)
             whole = (mean / (np.linalg.norm(mean) or 1.0)).astype(np.float32)
-    return _Context(words, head, whole)
+        out.append(_Context(words, True, whole))
+    return out
 
 
 def _side_clauses(lex: Lexicon, piece: Piece, options: ExpansionOptions) -> list[Expansion]:
@@ -192,11 +198,19 @@ def _side_clauses(lex: Lexicon, piece: Piece, options: ExpansionOptions) -> list
     if piece.kind != "pattern" or piece.pattern is None:
         return []
     own = display(piece.key)
-    spellings = [s for s in lex.used_spellings(piece.pattern, options) if s != own][: options.max_per_segment]
-    weight = round(options.pattern_weight, 4)
-    return [
-        Expansion(phrase=s, similarity=1.0, weight=weight, relation="equivalent", source="pattern") for s in spellings
-    ]
+    memo = ("side", piece.pattern, own, lex.options_key(options))
+    made = lex.memo.get(memo)
+    if made is None:
+        spellings = [s for s in lex.used_spellings(piece.pattern, options) if s != own][: options.max_per_segment]
+        weight = round(options.pattern_weight, 4)
+        made = lex.remember(
+            memo,
+            tuple(
+                Expansion(phrase=s, similarity=1.0, weight=weight, relation="equivalent", source="pattern")
+                for s in spellings
+            ),
+        )
+    return list(made)
 
 
 def _correction(
@@ -225,14 +239,27 @@ def expand(
     pieces = segment_query(
         query, lex.phraser, lex.vocabulary(options), min(options.max_words, lex.max_words), options.max_tokens
     )
+    alone = _alone(lex, decisions, pieces, options, explain)
+    if alone is not None:
+        made = lex.memo.get(alone)
+        if made is not None:  # a known phrase alone, as typed, no decision for it: worked out before
+            return ExpansionResult.model_construct(
+                query=query,
+                model=_model_info(lex),
+                segments=made[0],
+                clauses=made[1],
+                query_text=made[2],
+                full_query=made[3],
+            )
     boost = options.original_boost
     expanded: list[tuple[list[Expansion], list[Dropped]]] = []
+    contexts = _contexts(lex, pieces)
     for s, piece in enumerate(pieces):
         correction, refused = _correction(piece, decisions, options)
         if refused is not None:  # a blocked correction: the typed words stand alone
             expanded.append(([], [refused] if explain else []))
             continue
-        kept, dropped = _expand_piece(lex, piece, decisions, options, explain, _context(lex, pieces, s))
+        kept, dropped = _expand_piece(lex, piece, decisions, options, explain, contexts[s])
         if correction is not None:
             scale = correction.weight
             kept = [correction] + [e.model_copy(update={"weight": round(max(e.weight * scale, 1e-4), 4)}) for e in kept]
@@ -283,27 +310,52 @@ def expand(
             Clause.model_construct(phrase=e.phrase, weight=round(e.weight * boost, 4), original=False, segment=s)
             for e in final
         )
-    result = ExpansionResult.model_construct(
-        query=query,
-        model=ModelInfo.model_construct(version=lex.version, created_at=lex.created_at),
-        segments=segments,
-        clauses=clauses,
-        query_text=render(clauses, segments, options, lex.names),
+    query_text = render(clauses, segments, options, lex.names)
+    full = merged_text(segments_baseline(segments), query_text, words=segments_words(segments))
+    if alone is not None:
+        lex.remember(alone, (segments, clauses, query_text, full))
+    return ExpansionResult.model_construct(
+        query=query, model=_model_info(lex), segments=segments, clauses=clauses, query_text=query_text, full_query=full
     )
-    full = merged_text(baseline_text(result), result.query_text, words=words_text(result))
-    return result.model_copy(update={"full_query": full})
+
+
+def _model_info(lex: Lexicon) -> ModelInfo:
+    """The bundle a result came from: one object per bundle (results are never changed in place)."""
+    made = lex.memo.get(("model",))
+    if made is None:
+        made = lex.remember(("model",), ModelInfo.model_construct(version=lex.version, created_at=lex.created_at))
+    return made  # type: ignore[no-any-return]
+
+
+def _alone(
+    lex: Lexicon, decisions: DecisionSet, pieces: list[Piece], options: ExpansionOptions, explain: bool
+) -> tuple[str, int, str] | None:
+    """The `memo` key of a query that is one known entry alone, spelled right, with no reviewer
+    decision for it and nobody asking why: its whole answer but the echoed query depends on the
+    bundle and the options alone. None for any other query."""
+    if explain or len(pieces) != 1:
+        return None
+    piece = pieces[0]
+    if piece.kind not in ("phrase", "term") or piece.typed or piece.parts or piece.key not in lex.index:
+        return None
+    said = decisions.get(display(piece.key))
+    if said.blocked or said.pinned or said.exempt:
+        return None
+    return ("alone", lex.index[piece.key], lex.options_key(options))
 
 
 def prepare(lex: Lexicon, options: ExpansionOptions) -> int:
     """Work out, for every entry of the bundle, how it expands on its own under `options` with no
     reviewer decision for it (what most segments of most queries are), so that no query pays for
     that the first time: the long tail of a day's queries is mostly first times. Only that outcome
-    is kept (a few expansions an entry); the candidates and filters it came from are let go again.
-    Returns the number of entries prepared."""
+    is kept (a few expansions an entry), with the whole answer to the entry typed alone; the
+    candidates and filters it came from are let go again. Returns the number of entries prepared."""
     none, alone = DecisionSet(), _Context(frozenset(), False, None)
     key_of_options = lex.options_key(options)
     for i, key in enumerate(lex.keys):
         _expand_piece(lex, Piece(key, "phrase" if PHRASE_JOINER in key else "term"), none, options, False, alone)
+        # And the whole answer to the entry typed alone, where it segments as itself.
+        expand(lex, none, display(key), options)
         lex.memo.pop((i, options.candidates), None)
         lex.memo.pop(("fixed", i, key_of_options), None)
     return len(lex.keys)

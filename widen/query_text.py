@@ -19,12 +19,23 @@ Elasticsearch's query_string and Solr's standard parser read alike (common pract
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
+from functools import lru_cache
 
 from widen.options import ExpansionOptions
 from widen.result import Clause, ExpansionResult, Segment
 from widen.text import key_of
 
-__all__ = ["render", "baseline_text", "words_text", "merged_text", "BASELINE_BOOST", "WORDS_BOOST", "JOBS"]
+__all__ = [
+    "render",
+    "baseline_text",
+    "words_text",
+    "segments_baseline",
+    "segments_words",
+    "merged_text",
+    "BASELINE_BOOST",
+    "WORDS_BOOST",
+    "JOBS",
+]
 
 #: How a front end keeps the seeker's exact matches first: the baseline query, boosted this much,
 #: OR the service's query_text. 0 sends query_text as it is.
@@ -36,6 +47,7 @@ _NAMED = ("place", "employer", "protected")
 _UNQUOTABLE = str.maketrans("", "", '"\\')
 
 
+@lru_cache(maxsize=65536)
 def _quote(phrase: str) -> str:
     # Tokens never hold a double quote or a backslash; strip them anyway so no input can end
     # the quoted phrase early.
@@ -45,6 +57,7 @@ def _quote(phrase: str) -> str:
     return f'"{cleaned}"'
 
 
+@lru_cache(maxsize=65536)
 def _number(weight: float) -> str:
     return format(weight, ".4f").rstrip("0").rstrip(".") or "0"
 
@@ -62,8 +75,11 @@ def render(
 ) -> str:
     """The clauses as query text: each segment's clauses in one group; a job's group required."""
     parts = []
+    groups: dict[int, list[Clause]] = {}
+    for c in clauses:
+        groups.setdefault(c.segment, []).append(c)
     for s, segment in enumerate(segments):
-        group = [c for c in clauses if c.segment == s]
+        group = groups.get(s)
         if not group:
             continue
         required = options.operator == "AND" and (segment.kind in JOBS or options.match == "all")
@@ -85,7 +101,12 @@ def render(
 def baseline_text(result: ExpansionResult, operator: str = "AND") -> str:
     """The seeker's own words only, every segment as typed (noise words too), joined by `operator`: what
     "matches the seeker's words" means for exact-first, and the query widen compared against first."""
-    return f" {operator} ".join(f"{_quote(s.text)}^1" for s in result.segments if s.text.strip())
+    return segments_baseline(result.segments, operator)
+
+
+def segments_baseline(segments: Sequence[Segment], operator: str = "AND") -> str:
+    """`baseline_text` of a result's segments."""
+    return f" {operator} ".join(f"{_quote(s.text)}^1" for s in segments if s.text.strip())
 
 
 #: How much the seeker's words as optional terms weigh in the recommended merge: enough to bring in,
@@ -95,7 +116,12 @@ WORDS_BOOST = 0.1
 
 def words_text(result: ExpansionResult) -> str:
     """The seeker's words as optional terms, each quoted (the engine's default query, with no syntax)."""
-    return " ".join(_quote(w) for s in result.segments for w in s.text.split(" ") if w.strip())
+    return segments_words(result.segments)
+
+
+def segments_words(segments: Sequence[Segment]) -> str:
+    """`words_text` of a result's segments."""
+    return " ".join(_quote(w) for s in segments for w in s.text.split(" ") if w.strip())
 
 
 def merged_text(

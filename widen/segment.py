@@ -20,6 +20,7 @@ from __future__ import annotations
 import re
 from collections.abc import Callable, Collection, Mapping, Sequence
 from dataclasses import dataclass
+from typing import NamedTuple
 
 from widen.text import PHRASE_JOINER, is_number, tokens, words_in
 
@@ -28,13 +29,13 @@ __all__ = ["Piece", "Vocabulary", "segment_query"]
 _QUOTED = re.compile(r'"([^"]*)"')
 
 
-@dataclass(frozen=True)
-class Piece:
+class Piece(NamedTuple):
     """One segment: its vocabulary key (words joined by the phrase joiner), its kind, and the words as
     the seeker typed them when a spelling correction changed them (`typed`).
 
     `parts` are the known entries a composed vector is built from (empty unless composed); `field`,
-    the dump's field of a protected name; `pattern`, the name of a shift pattern.
+    the dump's field of a protected name; `pattern`, the name of a shift pattern. A named tuple,
+    not a dataclass: several are made for every query, and a tuple is the cheapest to make.
     """
 
     key: str
