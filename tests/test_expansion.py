@@ -5,6 +5,7 @@ from __future__ import annotations
 import itertools
 import json
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pytest
@@ -380,3 +381,28 @@ def test_fast_path_equals_the_reference_on_generated_queries(lexicon: Lexicon, w
             for _ in range(2):
                 fast = expand(lexicon, decisions, query, lexicon.options, explain=explain).model_dump_json()
                 assert fast == expand(reference, decisions, query, lexicon.options, explain=explain).model_dump_json()
+
+
+def test_built_makes_what_model_construct_makes(lexicon: Lexicon) -> None:
+    """`built` skips model_construct's loop over the fields; the object must be the same as the one
+    model_construct makes (pydantic's own constructor is the reference): fields, fields set, extras,
+    equality and JSON, for every model built on each request, and model_construct's when a field is missing."""
+    from widen.result import Clause, ModelInfo, Segment
+
+    result = expand(lexicon, NONE, "night shift staff nurse hensby", lexicon.options, explain=True)
+    examples: list[tuple[Any, dict[str, object]]] = [
+        (ModelInfo, {"version": "v1", "created_at": "2026-12-02T10:00:00Z"}),
+        (Clause, {"phrase": "staff nurse", "weight": 1.0, "original": True, "segment": 1}),
+        *[(Segment, dict(s)) for s in result.segments],
+        (ExpansionResult, dict(result)),
+    ]
+    for model, values in examples:
+        ours, theirs = model.built(**values), model.model_construct(**values)
+        assert ours == theirs and type(ours) is model
+        assert ours.__dict__ == theirs.__dict__ and list(ours.__dict__) == list(theirs.__dict__)
+        assert ours.__pydantic_fields_set__ == theirs.__pydantic_fields_set__
+        assert ours.__pydantic_extra__ == theirs.__pydantic_extra__
+        assert ours.model_dump_json() == theirs.model_dump_json()
+        assert model.model_validate_json(ours.model_dump_json()) == ours  # and it validates as it stands
+    short = Segment.built(text="chef", kind="phrase")  # two fields given: model_construct fills the defaults
+    assert short == Segment.model_construct(text="chef", kind="phrase") and short.expansions == []

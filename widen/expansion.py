@@ -243,7 +243,7 @@ def expand(
     if alone is not None:
         made = lex.memo.get(alone)
         if made is not None:  # a known phrase alone, as typed, no decision for it: worked out before
-            return ExpansionResult.model_construct(
+            return ExpansionResult.built(
                 query=query,
                 model=_model_info(lex),
                 segments=made[0],
@@ -291,7 +291,7 @@ def expand(
                 emitted.add(e.phrase)
         typed = piece.typed or display(piece.key)
         segments.append(
-            Segment.model_construct(  # built from values already checked: no validation per query
+            Segment.built(  # built from values already checked: no validation per query
                 text=typed,
                 kind=piece.kind,  # type: ignore[arg-type]
                 field=piece.field,
@@ -305,16 +305,15 @@ def expand(
             continue  # names no job: no clause
         if typed not in emitted:  # a word typed twice is one clause
             emitted.add(typed)
-            clauses.append(Clause.model_construct(phrase=typed, weight=round(boost, 4), original=True, segment=s))
+            clauses.append(Clause.built(phrase=typed, weight=round(boost, 4), original=True, segment=s))
         clauses.extend(
-            Clause.model_construct(phrase=e.phrase, weight=round(e.weight * boost, 4), original=False, segment=s)
-            for e in final
+            Clause.built(phrase=e.phrase, weight=round(e.weight * boost, 4), original=False, segment=s) for e in final
         )
     query_text = render(clauses, segments, options, lex.names)
     full = merged_text(segments_baseline(segments), query_text, words=segments_words(segments))
     if alone is not None:
         lex.remember(alone, (segments, clauses, query_text, full))
-    return ExpansionResult.model_construct(
+    return ExpansionResult.built(
         query=query, model=_model_info(lex), segments=segments, clauses=clauses, query_text=query_text, full_query=full
     )
 
