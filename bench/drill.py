@@ -110,7 +110,7 @@ def _running(command: list[str], cwd: Path | None = None) -> Iterator[subprocess
 
 def _wrk(base: str, seconds: float, paths: Path) -> dict[str, Any]:
     out = subprocess.run(
-        ["wrk", "-t2", "-c16", f"-d{max(1, round(seconds))}s", "-s", str(LUA), base, "--", str(paths), "2"],
+        ["wrk", "-t2", "-c16", f"-d{max(1, round(seconds))}s", "-s", str(LUA), base, "--", str(paths), "2", "loop"],
         capture_output=True,
         text=True,
         check=True,
