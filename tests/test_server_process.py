@@ -93,8 +93,13 @@ def test_workers_fork_from_a_parent_that_loaded_the_bundle_and_each_swaps_and_co
         import psutil
 
         parent = psutil.Process(server.process.pid)
-        workers = parent.children()
-        assert len(workers) == 2
+        # gunicorn forks its workers one after another (its arbiter waits up to 0.1 s between forks,
+        # from memory of its source), and the first may answer
+        # /readyz before the second exists: poll until both do.
+        deadline = time.monotonic() + 10
+        while len(parent.children()) < 2 and time.monotonic() < deadline:
+            time.sleep(0.05)
+        assert len(parent.children()) == 2
         # Loaded before the fork: the parent itself maps the serving bundle's arrays.
         bundle_dir = str(store / "bundles" / serving)
         assert any(m.path.startswith(bundle_dir) for m in parent.memory_maps())
