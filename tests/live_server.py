@@ -7,6 +7,7 @@ import signal
 import socket
 import subprocess
 import sys
+import threading
 import time
 from collections.abc import Iterator
 from contextlib import contextmanager
@@ -68,3 +69,29 @@ def live_server(
             process.kill()
             _, err = process.communicate()
         server.log.extend(err.splitlines())
+
+
+@contextmanager
+def steady_load(bases: list[str], phrase: str, variants: int) -> Iterator[list[int]]:
+    """GET /v1/expand on every server in `bases` in a loop on a thread ("PHRASE 0", "PHRASE 1", ...,
+    `variants` spellings, so the response cache does not answer them all) until the block ends;
+    yields the status codes of the answers that were not 200 (the caller asserts it stays empty)."""
+    failures: list[int] = []
+    done = threading.Event()
+
+    def load() -> None:
+        n = 0
+        while not done.is_set():
+            for base in bases:
+                got = httpx.get(f"{base}/v1/expand", params={"q": f"{phrase} {n % variants}"}, timeout=10)
+                if got.status_code != 200:
+                    failures.append(got.status_code)
+            n += 1
+
+    loader = threading.Thread(target=load)
+    loader.start()
+    try:
+        yield failures
+    finally:
+        done.set()
+        loader.join(timeout=30)

@@ -209,7 +209,7 @@ def test_two_replicas_share_decisions_and_ride_out_the_database_going_away(
 
     import httpx
 
-    from tests.live_server import live_server
+    from tests.live_server import live_server, steady_load
     from tests.postgres_server import PostgresServer
 
     assert isinstance(postgres, PostgresServer)
@@ -230,43 +230,30 @@ def test_two_replicas_share_decisions_and_ride_out_the_database_going_away(
         assert httpx.get(f"{two.base}/readyz").json()["decisions"] == "current"
 
         postgres.stop()
-        failures: list[int] = []
-        done = threading.Event()
-
-        def load() -> None:
-            n = 0
-            while not done.is_set():
-                for base in (one.base, two.base):
-                    got = httpx.get(f"{base}/v1/expand", params={"q": f"care assistant {n % 7}"}, timeout=10)
-                    if got.status_code != 200:
-                        failures.append(got.status_code)
-                n += 1
-
-        loader = threading.Thread(target=load)
-        loader.start()
-        try:
-            deadline = time.monotonic() + 15
-            while httpx.get(f"{two.base}/readyz").json().get("decisions") == "current":
-                assert time.monotonic() < deadline, "readyz should say the decisions are stale"
-                time.sleep(0.1)
-            ready = httpx.get(f"{two.base}/readyz")
-            assert ready.status_code == 200 and "cannot be reached" in ready.json()["decisions"]
-            refused = httpx.post(f"{one.base}/v1/decisions", json={**body, "neighbour": "truck driver"}, headers=auth)
-            assert refused.status_code == 503 and refused.json()["error"]["code"] == "decisions_unavailable"
-            assert "tollbridge-secret" not in refused.text
-            assert victim not in _neighbours(two.base, "lorry driver")  # the last decisions still apply
-        finally:
-            postgres.start()
-            postgres.wait_until_accepting()
-        deadline = time.monotonic() + 20
-        while True:
-            again = httpx.post(f"{one.base}/v1/decisions", json={**body, "neighbour": "truck driver"}, headers=auth)
-            if again.status_code == 201:
-                break
-            assert again.status_code == 503 and time.monotonic() < deadline, again.text
-            time.sleep(0.2)
-        done.set()
-        loader.join(timeout=30)
+        with steady_load([one.base, two.base], "care assistant", 7) as failures:
+            try:
+                deadline = time.monotonic() + 15
+                while httpx.get(f"{two.base}/readyz").json().get("decisions") == "current":
+                    assert time.monotonic() < deadline, "readyz should say the decisions are stale"
+                    time.sleep(0.1)
+                ready = httpx.get(f"{two.base}/readyz")
+                assert ready.status_code == 200 and "cannot be reached" in ready.json()["decisions"]
+                refused = httpx.post(
+                    f"{one.base}/v1/decisions", json={**body, "neighbour": "truck driver"}, headers=auth
+                )
+                assert refused.status_code == 503 and refused.json()["error"]["code"] == "decisions_unavailable"
+                assert "tollbridge-secret" not in refused.text
+                assert victim not in _neighbours(two.base, "lorry driver")  # the last decisions still apply
+            finally:
+                postgres.start()
+                postgres.wait_until_accepting()
+            deadline = time.monotonic() + 20
+            while True:
+                again = httpx.post(f"{one.base}/v1/decisions", json={**body, "neighbour": "truck driver"}, headers=auth)
+                if again.status_code == 201:
+                    break
+                assert again.status_code == 503 and time.monotonic() < deadline, again.text
+                time.sleep(0.2)
         assert failures == []
         listed = httpx.get(f"{two.base}/v1/decisions").json()["decisions"]
         assert sorted(d["neighbour"] for d in listed) == sorted([victim, "truck driver"])

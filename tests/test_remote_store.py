@@ -20,7 +20,7 @@ from pathlib import Path
 import httpx
 import pytest
 
-from tests.live_server import free_port, live_server
+from tests.live_server import free_port, live_server, steady_load
 from widen.clock import new_version
 from widen.remote_store import StoreMirror, is_url, masked
 from widen.store import Store
@@ -181,20 +181,7 @@ def test_a_replica_serving_a_url_swaps_within_two_polls_and_never_fails_a_reques
         with live_server(server.url, env) as replica:
             base = replica.base
             assert httpx.get(f"{base}/v1/model").json()["version"] == Store(served_store).current_version()
-            failures: list[int] = []
-            done = threading.Event()
-
-            def load() -> None:
-                n = 0
-                while not done.is_set():
-                    got = httpx.get(f"{base}/v1/expand", params={"q": f"staff nurse {n % 5}"}, timeout=10)
-                    if got.status_code != 200:
-                        failures.append(got.status_code)
-                    n += 1
-
-            loader = threading.Thread(target=load)
-            loader.start()
-            try:
+            with steady_load([base], "staff nurse", 5) as failures:
                 good = publish_copy(served_store)
                 published = time.monotonic()
                 while httpx.get(f"{base}/v1/model").json()["version"] != good:
@@ -209,9 +196,6 @@ def test_a_replica_serving_a_url_swaps_within_two_polls_and_never_fails_a_reques
                 assert httpx.get(f"{base}/readyz").status_code == 200
                 assert httpx.get(f"{base}/v1/model").json()["version"] == good
                 server.start()
-            finally:
-                done.set()
-                loader.join(timeout=30)
             assert failures == []
 
 
