@@ -33,9 +33,9 @@ from bench.common import machine
 from training.config import PhrasesSection, load_config
 from training.phrases import learn_phrases
 from training.pipeline import train
-from widen.phrases import Phraser
-from widen.store import Store
-from widen.text import blocks, in_windows, normalise
+from widen.model.phrases import Phraser
+from widen.model.store import Store
+from widen.text.tokenize import blocks, in_windows, normalise
 
 __all__ = ["main", "documents", "wordsim", "pipeline_vectors", "gensim_direct", "PARAMS"]
 

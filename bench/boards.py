@@ -23,8 +23,8 @@ from typing import Any
 from bench.common import ROOT, machine
 from demo_postings.generate import BOARDS, generate
 from widen.evaluation.scorecard import scorecard
-from widen.lexicon import Lexicon
-from widen.store import Store
+from widen.expansion.lexicon import Lexicon
+from widen.model.store import Store
 
 __all__ = ["main", "prepare", "board"]
 
@@ -58,7 +58,7 @@ def board(name: str, out: Path, postings: int, seed: int) -> dict[str, Any]:
     data, store, forced = prepare(name, out, postings, seed)
     version = Store(store).current_version()
     assert version is not None
-    gate = Store(store).manifest(version)["gate"]
+    gate = Store(store).manifest(version).gate
     common = ["--store", str(store), "--queries", str(data / "queries.jsonl"), "--truth", str(data / "truth.json")]
     for args in (
         ["--postings", str(data / "open_postings.jsonl"), "--out", str(out / name / "eval")],
@@ -73,7 +73,7 @@ def board(name: str, out: Path, postings: int, seed: int) -> dict[str, Any]:
     return {
         "board": BOARDS[name].name,
         "bundle": version,
-        "gate": {"score": gate.get("score"), "passed": gate.get("passed"), "forced": forced},
+        "gate": {"score": gate.score if gate else None, "passed": bool(gate and gate.passed), "forced": forced},
         "report": json.loads((out / name / "eval" / "report.json").read_text(encoding="utf-8")),
         "windows": json.loads((out / name / "windows" / "windows.json").read_text(encoding="utf-8")),
         "scorecard": {k: round(v, 3) if isinstance(v, float) else v for k, v in card.items() if k != "families"},

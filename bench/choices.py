@@ -26,32 +26,44 @@ from typing import Any
 from bench.boards import prepare
 from bench.common import ROOT, machine
 from demo_postings.generate import BOARDS
-from widen.decisions import DecisionSet
+from widen.decisions.decision import DecisionSet
 from widen.evaluation.index import SearchIndex
 from widen.evaluation.methods import bag_of_words_text
 from widen.evaluation.metrics import ndcg_at, recall_at, trec_order
 from widen.evaluation.runs import RUN_DEPTH, LabelledQuery, read_queries
-from widen.expansion import expand
-from widen.lexicon import Lexicon
-from widen.query_text import baseline_text, merged_text, words_text
-from widen.result import ExpansionResult
-from widen.store import Store
+from widen.expansion.cache import ExpansionCache
+from widen.expansion.expand import expand
+from widen.expansion.lexicon import Lexicon
+from widen.expansion.options import ExpansionOptions
+from widen.expansion.query_text import baseline_text, merged_text, words_text
+from widen.expansion.result import ExpansionResult
+from widen.model.store import Store
 
 __all__ = ["main", "CHOICES"]
 
 Build = Callable[[Lexicon, str], str]
 
 
+#: What is kept of each bundle between queries (one board's bundle at a time, in this run).
+_CACHES: dict[str, ExpansionCache] = {}
+
+
+def _expand(lex: Lexicon, query: str, options: ExpansionOptions) -> ExpansionResult:
+    cache = _CACHES.get(lex.version)
+    if cache is None:
+        cache = _CACHES[lex.version] = ExpansionCache(lex)
+    return expand(lex, DecisionSet(), query, options, cache=cache)
+
+
 def _full(places: str, match: str) -> Build:
     def build(lex: Lexicon, query: str) -> str:
-        options = lex.options.with_request(places=places, match=match)
-        return expand(lex, DecisionSet(), query, options).full_query
+        return _expand(lex, query, lex.options.with_request(places=places, match=match)).full_query
 
     return build
 
 
 def _parts(lex: Lexicon, query: str, match: str = "all") -> ExpansionResult:
-    return expand(lex, DecisionSet(), query, lex.options.with_request(places="field", match=match))
+    return _expand(lex, query, lex.options.with_request(places="field", match=match))
 
 
 def _no_words(lex: Lexicon, query: str) -> str:

@@ -36,7 +36,7 @@ from bench.common import ROOT, machine
 from bench.traffic import LUA, log_paths
 from tests.live_server import free_port
 from widen.clock import new_version
-from widen.store import Store
+from widen.model.store import Store
 
 __all__ = ["run_drill", "main"]
 

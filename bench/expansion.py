@@ -2,7 +2,7 @@
 
 A repeated warm phrase says little about a long-tail stream, where most queries come once. So the
 distinct queries of `query_log.jsonl` are expanded once each, in the log's order:
-- `prepared`: as the service serves a bundle (`widen.expansion.prepare` ran at load, timed apart);
+- `prepared`: as the service serves a bundle (`widen.expansion.expand.prepare` ran at load, timed apart);
 - `cold`: nothing kept from any earlier query (the lexicon's memo emptied before each one), the
   cost of a query whose every entry is new.
 Queries are grouped by how many segments they have: a known phrase alone (one job segment) and
@@ -21,39 +21,41 @@ from typing import Any
 import numpy as np
 
 from bench.common import median_us
-from widen.neighbours import normalise_rows, top_k_for_vector
-from widen.store import Store
+from widen.model.neighbours import normalise_rows, top_k_for_vector
+from widen.model.store import Store
 
 __all__ = ["bench_expansion"]
 
 
-def _each_once(lexicon: Any, queries: list[str], cold: bool) -> list[float]:
-    from widen.decisions import DecisionSet
-    from widen.expansion import expand
+def _each_once(lexicon: Any, cache: Any, queries: list[str], cold: bool) -> list[float]:
+    from widen.decisions.decision import DecisionSet
+    from widen.expansion.expand import expand
 
     none, options, times = DecisionSet(), lexicon.options, []
     for q in queries:
         if cold:
-            lexicon.memo.clear()
+            cache.forget_answers()  # nothing kept from earlier queries but the bundle's derived data
         started = time.perf_counter()
-        expand(lexicon, none, q, options)
+        expand(lexicon, none, q, options, cache=cache)
         times.append((time.perf_counter() - started) * 1e6)
     return times
 
 
 def bench_expansion(store: Path, demo: Path, rounds: int = 3) -> dict[str, Any]:
     """In-process expansion of the log's distinct queries, each once: prepared and cold; composed search."""
-    from widen.decisions import DecisionSet
-    from widen.expansion import expand, prepare
-    from widen.lexicon import Lexicon
+    from widen.decisions.decision import DecisionSet
+    from widen.expansion.cache import ExpansionCache
+    from widen.expansion.expand import expand, prepare
+    from widen.expansion.lexicon import Lexicon
 
     bundle = Store(store).open_bundle()
     probe = Lexicon(bundle)
+    probe_cache = ExpansionCache(probe)
     log = [json.loads(line)["q"] for line in (demo / "query_log.jsonl").read_text(encoding="utf-8").splitlines()]
     distinct = list(dict.fromkeys(log))
     by_segments: dict[str, list[str]] = {"known phrase alone": [], "four segments": []}
     for q in distinct:
-        segments = expand(probe, DecisionSet(), q, probe.options).segments
+        segments = expand(probe, DecisionSet(), q, probe.options, cache=probe_cache).segments
         if len(segments) == 1 and segments[0].kind in ("phrase", "term"):
             by_segments["known phrase alone"].append(q)
         elif len(segments) == 4:
@@ -64,12 +66,13 @@ def bench_expansion(store: Path, demo: Path, rounds: int = 3) -> dict[str, Any]:
     for n in range(rounds):
         for way in ("prepared", "cold") if n % 2 == 0 else ("cold", "prepared"):
             lexicon = Lexicon(bundle)
+            cache = ExpansionCache(lexicon)
             if way == "prepared":
                 started = time.perf_counter()
-                prepare(lexicon, lexicon.options)
+                prepare(lexicon, cache, lexicon.options)
                 load.append(time.perf_counter() - started)
             for group, queries in by_segments.items():
-                medians[way][group].append(statistics.median(_each_once(lexicon, queries, way == "cold")))
+                medians[way][group].append(statistics.median(_each_once(lexicon, cache, queries, way == "cold")))
     for way, groups in medians.items():
         results[way] = {
             g: {"queries": len(by_segments[g]), "median_us": round(statistics.median(v), 1)} for g, v in groups.items()

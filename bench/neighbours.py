@@ -26,8 +26,8 @@ import numpy as np
 import numpy.typing as npt
 
 from bench.common import settle
-from widen.neighbours import normalise_rows, top_k_table
-from widen.store import Store
+from widen.model.neighbours import normalise_rows, top_k_table
+from widen.model.store import Store
 
 __all__ = ["bench_neighbours", "bare_blocked_product", "check_against_full_sort", "fastest_bare_product"]
 

@@ -15,7 +15,7 @@ from bench.common import ROOT, widen_train
 from demo_postings.generate import generate
 from training.config import load_config
 from training.corpus import PostingCorpus
-from widen.text import sentences
+from widen.text.tokenize import sentences
 
 __all__ = ["bench_pipeline", "bench_memory"]
 

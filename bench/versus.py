@@ -30,14 +30,25 @@ __all__ = ["main"]
 _TIMER = r"""
 import json, statistics, sys, time
 from pathlib import Path
-from widen.decisions import DecisionSet
-from widen.expansion import expand
-from widen.lexicon import Lexicon
-from widen.store import Store
+try:  # the layout since issue 20
+    from widen.decisions.decision import DecisionSet
+    from widen.expansion.cache import ExpansionCache
+    from widen.expansion.expand import expand as expand_with
+    from widen.expansion.lexicon import Lexicon
+    from widen.model.store import Store
+except ImportError:  # the flat layout before it
+    from widen.decisions import DecisionSet
+    from widen.expansion import expand as expand_with
+    from widen.lexicon import Lexicon
+    from widen.store import Store
+    ExpansionCache = None
 
 store, queries_path, rounds = Path(sys.argv[1]), Path(sys.argv[2]), int(sys.argv[3])
 lex = Lexicon(Store(store).open_bundle())
 options, none = lex.options, DecisionSet()
+kept = {} if ExpansionCache is None else {"cache": ExpansionCache(lex)}
+def expand(lex, decisions, query, options):
+    return expand_with(lex, decisions, query, options, **kept)
 queries = [json.loads(line)["query"] for line in queries_path.open(encoding="utf-8")]
 for q in queries:
     expand(lex, none, q, options)  # warm the per-entry memo, as a serving worker would be

@@ -64,7 +64,7 @@ def _field(loc: Any) -> str | None:
 
 
 async def _decisions_unavailable(request: Request, exc: Exception) -> JSONResponse:
-    # The message names the database with its password masked (widen.postgres_decisions.masked_url).
+    # The message names the database with its password masked (widen.decisions.postgres.masked_url).
     return error_response(503, "decisions_unavailable", f"{exc}; nothing was written, try again shortly")
 
 

@@ -18,7 +18,7 @@ from typing import Any
 
 from service.settings import Settings
 from widen.errors import EXIT_OK, BadInput
-from widen.remote_store import is_url, masked
+from widen.model.remote_store import is_url, masked
 
 __all__ = ["serve"]
 

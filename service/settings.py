@@ -41,7 +41,7 @@ class Settings(BaseSettings):
     # A postgresql:// database for the decisions, shared by replicas on several hosts; unset: the
     # store's own SQLite. A secret: it never appears in logs, errors or pages (password masked).
     decisions_url: SecretStr | None = None
-    # Before a bundle serves, work out how every entry expands on its own (widen.expansion.prepare),
+    # Before a bundle serves, work out how every entry expands on its own (widen.expansion.expand.prepare),
     # so the first query of each phrase costs what a repeated one does; about 0.3 ms an entry.
     prepare: bool = True
     demo_index: Path | None = None

@@ -19,15 +19,16 @@ from pathlib import Path
 from service.cache import ResultCache
 from service.settings import Settings
 from service.telemetry import Telemetry
-from widen.decision_stores import open_decision_store
-from widen.decisions import DecisionSet
+from widen.decisions.decision import DecisionSet
+from widen.decisions.open_store import open_decision_store
 from widen.errors import BundleError
 from widen.evaluation.index import SearchIndex
-from widen.expansion import prepare
-from widen.lexicon import Lexicon
-from widen.options import ExpansionOptions
-from widen.remote_store import StoreMirror, is_url, mirror_folder
-from widen.store import Store
+from widen.expansion.cache import ExpansionCache
+from widen.expansion.expand import prepare
+from widen.expansion.lexicon import Lexicon
+from widen.expansion.options import ExpansionOptions
+from widen.model.remote_store import StoreMirror, is_url, mirror_folder
+from widen.model.store import Store
 
 __all__ = ["Serving", "ServiceState"]
 
@@ -36,9 +37,11 @@ log = logging.getLogger("widen.serve")
 
 @dataclass(frozen=True)
 class Serving:
-    """One verified bundle and the options it is served with (its own, with the service's overrides)."""
+    """One verified bundle, what is kept of it between queries, and the options it is served with (its
+    own, with the service's overrides)."""
 
     lexicon: Lexicon
+    cache: ExpansionCache
     options: ExpansionOptions
 
     @property
@@ -75,7 +78,7 @@ class ServiceState:
         if settings.demo_index is not None:
             self.demo_index = SearchIndex(settings.demo_index, self.store.search_indexes)
         self._decisions_stamp = -1
-        self._others: dict[str, Lexicon] = {}
+        self._others: dict[str, Serving] = {}
         self._built: dict[str, SearchIndex] = {}
         self._lock = threading.Lock()
         self._decisions_lock = threading.Lock()
@@ -118,24 +121,26 @@ class ServiceState:
                     self.not_ready_reason = f"bundle {version} failed verification: {exc}"
                 return "refused"
             options = self.served_options(lexicon)
+            cache = ExpansionCache(lexicon)
             if self.settings.prepare:  # before the swap: the bundle serving now keeps serving meanwhile
                 started = time.monotonic()
-                entries = prepare(lexicon, options)
+                entries = prepare(lexicon, cache, options)
                 log.info("prepared %d entries of %s in %.1f s", entries, version, time.monotonic() - started)
-            self.serving = Serving(lexicon, options)
+            self.serving = Serving(lexicon, cache, options)
             log.info("serving bundle %s", version)
             self.telemetry.event("loaded", version)
             return "loaded"
 
-    def lexicon_of(self, version: str) -> Lexicon:
-        """The serving lexicon, or another bundle of the store opened (and verified) for comparison."""
+    def serving_of(self, version: str) -> Serving:
+        """The serving bundle, or another bundle of the store opened (and verified) for comparison."""
         serving = self.serving
         if serving is not None and serving.version == version:
-            return serving.lexicon
+            return serving
         if version not in self._others:
             if len(self._others) >= 3:
                 self._others.pop(next(iter(self._others)))
-            self._others[version] = Lexicon(self.store.open_bundle(version, verify=True))
+            lexicon = Lexicon(self.store.open_bundle(version, verify=True))
+            self._others[version] = Serving(lexicon, ExpansionCache(lexicon), self.served_options(lexicon))
         return self._others[version]
 
     # -- decisions ------------------------------------------------------------------------

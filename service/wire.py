@@ -1,4 +1,4 @@
-"""The request and response bodies of the API (the result model itself is `widen.result`)."""
+"""The request and response bodies of the API (the result model itself is `widen.expansion.result`)."""
 
 from __future__ import annotations
 
@@ -6,8 +6,8 @@ from typing import Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 
-from widen.decisions import Decision
-from widen.result import ExpansionResult
+from widen.decisions.decision import Decision
+from widen.expansion.result import ExpansionResult
 
 __all__ = [
     "RequestOptions",

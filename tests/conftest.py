@@ -1,24 +1,19 @@
-"""Shared fixtures: small dumps of both demo boards, and a store trained on each once per session."""
+"""Shared fixtures: small dumps of both demo boards, and a store trained on each once per session.
+
+What tests share besides fixtures is in `tests/helpers.py`; no test imports this module."""
 
 from __future__ import annotations
 
-import io
 import itertools
-import json
-import os
 import shutil
-from collections.abc import Iterator, Sequence
+from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
 
 from demo_postings.generate import generate
+from tests.helpers import SMALL_POSTINGS, demo_config, train_quietly
 from tests.postgres_server import PostgresServer, postgres_server
-from training.config import TrainConfig, load_config
-from training.pipeline import TrainOutcome, train
-
-SMALL_POSTINGS = 8000
-IN_CI = os.environ.get("CI") == "true"
 
 
 @pytest.fixture(scope="session")
@@ -46,16 +41,6 @@ def oxmere_store(oxmere_dir: Path, tmp_path_factory: pytest.TempPathFactory) -> 
     return store
 
 
-def demo_config(demo_dir: Path, **overrides: object) -> TrainConfig:
-    values: dict[str, object] = {"gate.pairs": str(demo_dir / "pairs.tsv")}
-    values.update(overrides)
-    return load_config(None, values)
-
-
-def train_quietly(corpus: Path, store: Path, config: TrainConfig, force: bool = False) -> TrainOutcome:
-    return train(corpus, store, config, force=force, out=io.StringIO())
-
-
 @pytest.fixture(scope="session")
 def trained_store(demo_dir: Path, tmp_path_factory: pytest.TempPathFactory) -> Path:
     """A store with one current bundle trained on the small demo dump. Treat as read-only."""
@@ -71,13 +56,6 @@ def store_copy(trained_store: Path, tmp_path: Path) -> Iterator[Path]:
     target = tmp_path / "store"
     shutil.copytree(trained_store, target)
     yield target
-
-
-def write_jsonl(path: Path, rows: Sequence[object]) -> Path:
-    with path.open("w", encoding="utf-8") as fh:
-        for row in rows:
-            fh.write((row if isinstance(row, str) else json.dumps(row)) + "\n")
-    return path
 
 
 @pytest.fixture(scope="session")

@@ -15,12 +15,10 @@ from prometheus_client.parser import text_string_to_metric_families
 
 from service.app import create_app
 from service.settings import Settings
-from widen.clock import new_version
-from widen.expansion import expand
-from widen.lexicon import Lexicon
-from widen.options import ExpansionOptions
-from widen.sqlite_decisions import SqliteDecisionStore
-from widen.store import Store
+from tests.helpers import open_store, republish
+from widen.decisions.sqlite import SqliteDecisionStore
+from widen.expansion.options import ExpansionOptions
+from widen.model.store import Store
 
 
 def _settings(store: Path, **extra: object) -> Settings:
@@ -40,30 +38,9 @@ def client(store_copy: Path) -> Iterator[TestClient]:
         yield c
 
 
-def _copy_bundle(store: Path, corrupt: bool = False) -> str:
-    """Publish a copy of the current bundle under a new version (optionally with one flipped byte)."""
-    s = Store(store)
-    current = s.current_version() or ""
-    version = new_version(current)
-    target = s.bundle_dir(version)
-    shutil.copytree(s.bundle_dir(current), target)
-    manifest = json.loads((target / "manifest.json").read_text())
-    manifest["version"] = version
-    (target / "manifest.json").write_text(json.dumps(manifest))
-    if corrupt:
-        path = target / "neighbours_similarity.npy"
-        data = bytearray(path.read_bytes())
-        data[len(data) // 2] ^= 0x01
-        path.write_bytes(bytes(data))
-    s.set_current(version, by="test")
-    return version
-
-
 def test_get_and_post_return_the_core_result(client: TestClient, store_copy: Path) -> None:
-    lexicon = Lexicon(Store(store_copy).open_bundle())
-    expected = expand(
-        lexicon, SqliteDecisionStore(Store(store_copy).decisions_path).snapshot(), "lorry driver", ExpansionOptions()
-    )
+    decisions = SqliteDecisionStore(Store(store_copy).decisions_path).snapshot()
+    expected = open_store(store_copy).expand("lorry driver", ExpansionOptions(), decisions)
     got = client.get("/v1/expand", params={"q": "lorry driver"})
     assert got.status_code == 200 and got.json() == json.loads(expected.model_dump_json())
     posted = client.post("/v1/expand", json={"query": "lorry driver"})
@@ -238,10 +215,10 @@ def test_hot_swap_under_load_fails_no_request(client: TestClient, store_copy: Pa
     for w in workers:
         w.start()
     until(lambda: len(seen) >= 50, "no load on the old bundle")
-    new = _copy_bundle(store_copy)
+    new = republish(store_copy)
     until(lambda: sum(v == new for _, v in seen) >= 50, "the new bundle did not serve under load")
     # A corrupt bundle is refused; the good one keeps serving.
-    bad = _copy_bundle(store_copy, corrupt=True)
+    bad = republish(store_copy, "flip")
     until(
         lambda: "widen_reloads_refused_total 1.0" in client.get("/metrics").text, "the corrupt bundle was not refused"
     )

@@ -20,8 +20,8 @@ from schemathesis.specs.openapi.checks import (
 from service.app import create_app
 from service.settings import Settings
 from service.state import ServiceState
-from widen.sqlite_decisions import SqliteDecisionStore
-from widen.store import Store
+from widen.decisions.sqlite import SqliteDecisionStore
+from widen.model.store import Store
 
 REVIEW = "tollbridge-review-schema"
 

@@ -18,10 +18,9 @@ from urllib.parse import urlencode
 import httpx
 import pytest
 
-from tests.conftest import IN_CI
+from tests.helpers import HOSTILE, IN_CI
 from tests.live_server import live_server
-from tests.test_review import HOSTILE
-from widen.store import Store
+from widen.model.store import Store
 
 TOKEN = "tollbridge-review-browser"
 ARTIFACTS = Path(os.environ.get("WIDEN_TEST_ARTIFACTS", "build/artifacts"))

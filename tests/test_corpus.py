@@ -8,11 +8,11 @@ from pathlib import Path
 
 import pytest
 
-from tests.conftest import write_jsonl
+from tests.helpers import write_jsonl
 from training.config import CorpusSection
 from training.corpus import REASONS, PostingCorpus
 from widen.cli import main
-from widen.store import Store
+from widen.model.store import Store
 
 GOOD = {"id": "tvj-1", "title": "Staff Nurse", "description": "<p>Hensby Community Hospital</p>", "location": "Hensby"}
 
@@ -119,8 +119,9 @@ def test_duplicates_are_counted_and_skipped(tmp_path: Path) -> None:
     code = main(["train", "--corpus", str(path), "--store", str(store), "--config", str(_tiny_config(tmp_path))])
     assert code == 0
     manifest = Store(store).manifest(Store(store).current_version() or "")
-    assert manifest["corpus"]["duplicates"] == 1
-    assert manifest["corpus"]["postings_used"] == 31
+    assert manifest.corpus is not None
+    assert manifest.corpus.duplicates == 1
+    assert manifest.corpus.postings_used == 31
 
 
 def _tiny_config(tmp_path: Path) -> Path:

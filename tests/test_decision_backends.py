@@ -14,12 +14,12 @@ from pathlib import Path
 import pytest
 
 from widen.cli import main
-from widen.decision_stores import open_decision_store
-from widen.decisions import DecisionStore
+from widen.decisions.backend import DecisionStore
+from widen.decisions.open_store import open_decision_store
+from widen.decisions.postgres import MIGRATIONS, PostgresDecisionStore, masked_url
+from widen.decisions.sqlite import SqliteDecisionStore
 from widen.errors import DecisionError, DecisionsUnavailable
-from widen.postgres_decisions import MIGRATIONS, PostgresDecisionStore, masked_url
-from widen.sqlite_decisions import SqliteDecisionStore
-from widen.store import Store
+from widen.model.store import Store
 
 
 @pytest.fixture(params=["sqlite", "postgresql"])

@@ -9,22 +9,20 @@ from pathlib import Path
 
 import pytest
 
-from tests.conftest import demo_config, train_quietly
+from tests.helpers import demo_config, open_store, train_quietly
 from widen.cli import main
+from widen.decisions.sqlite import SqliteDecisionStore
 from widen.errors import DecisionError
-from widen.expansion import expand
-from widen.lexicon import Lexicon
-from widen.options import ExpansionOptions
-from widen.sqlite_decisions import SqliteDecisionStore
-from widen.store import Store
+from widen.expansion.options import ExpansionOptions
+from widen.model.store import Store
 
 OPTIONS = ExpansionOptions()
 
 
 def _phrases(store: Path, query: str) -> dict[str, float]:
-    lexicon = Lexicon(Store(store).open_bundle())
+    lexicon = open_store(store)
     snapshot = SqliteDecisionStore(Store(store).decisions_path).snapshot()
-    result = expand(lexicon, snapshot, query, OPTIONS)
+    result = lexicon.expand(query, OPTIONS, snapshot)
     return {e.phrase: e.weight for s in result.segments for e in s.expansions}
 
 

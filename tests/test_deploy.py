@@ -8,7 +8,7 @@ import sys
 from pathlib import Path
 from typing import Any
 
-from tests.conftest import write_jsonl
+from tests.helpers import write_jsonl
 
 ROOT = Path(__file__).resolve().parent.parent
 SCRIPT = ROOT / "deploy" / "widen-nightly.sh"

@@ -14,8 +14,9 @@ import numpy as np
 import pytest
 import pytrec_eval
 
+from tests.helpers import open_store
 from widen.cli import main
-from widen.decisions import DecisionSet
+from widen.decisions.decision import DecisionSet
 from widen.evaluation.index import SearchIndex
 from widen.evaluation.methods import METHODS, CuratedList, bag_of_words_text
 from widen.evaluation.metrics import ndcg_at, recall_at, reciprocal_rank, trec_order
@@ -23,10 +24,9 @@ from widen.evaluation.report import write_report
 from widen.evaluation.runs import _exact_first, evaluate, read_queries
 from widen.evaluation.scorecard import scorecard
 from widen.evaluation.significance import paired_randomisation
-from widen.expansion import expand
-from widen.lexicon import Lexicon
-from widen.query_text import merged_text
-from widen.store import Store
+from widen.expansion.lexicon import Lexicon
+from widen.expansion.query_text import merged_text
+from widen.model.store import Store
 
 
 def _read_run(path: Path) -> dict[str, dict[str, float]]:
@@ -183,7 +183,7 @@ def test_curated_list_replaces_neighbours_with_the_truth(trained_store: Path, de
     truth = json.loads((demo_dir / "truth.json").read_text())
     curated = CuratedList(truth)
     lexicon = Lexicon(Store(trained_store).open_bundle())
-    result = expand(lexicon, DecisionSet(), "lorry driver jobs hensby", lexicon.options)
+    result = open_store(trained_store).expand("lorry driver jobs hensby")
     text = curated.query_text(result, lexicon.options.with_request(places="field"), lexicon.names)
     # The job's group holds the list's titles in place of the neighbours; the place stays as widen
     # writes it (here in its field, required); the noise word has no clause, as in widen's own query.

@@ -13,7 +13,7 @@ import pytest
 from demo_postings.generate import BOARDS, generate
 from demo_postings.oxmere import PATTERN_SPELLINGS
 from demo_postings.queries import SEEKER_PATTERNS
-from widen.text import phrase_of
+from widen.text.forms import phrase_of_text
 
 # How the boards write each shift pattern: Oxmere Bay's spellings, and Tollbridge's title modifiers
 # and hours lines (demo_postings/postings.py).
@@ -95,8 +95,8 @@ def test_queries_are_typed_as_seekers_type_and_judged_by_what_they_name(
             if q["town"]:
                 assert posting["location"] == q["town"]
             if q["pattern"]:
-                written = f" {phrase_of(posting['title'] + ' ' + posting['description'])} "
-                assert any(f" {phrase_of(s)} " in written for s in SPELLINGS[q["pattern"]]), (q["query"], pid)
+                written = f" {phrase_of_text(posting['title'] + ' ' + posting['description'])} "
+                assert any(f" {phrase_of_text(s)} " in written for s in SPELLINGS[q["pattern"]]), (q["query"], pid)
     # Relevance respects the town and the pattern: such a query wants fewer postings than its title alone.
     for kind in ("town", "shift"):
         named = next(q for q in queries if q["kind"] == kind)

@@ -9,8 +9,8 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from widen.neighbours import normalise_rows, top_k_for_vector, top_k_table
-from widen.store import Store
+from widen.model.neighbours import normalise_rows, top_k_for_vector, top_k_table
+from widen.model.store import Store
 
 
 def test_table_equals_gensim_most_similar(trained_store: Path) -> None:
@@ -71,7 +71,7 @@ def _full_sort(normed: np.ndarray, k: int) -> tuple[np.ndarray, np.ndarray]:
 
 
 def test_table_equals_full_sort_with_floors_in_use() -> None:
-    # 3,000 entries: large enough that each row starts from a sampled floor (widen.neighbours._floors).
+    # 3,000 entries: large enough that each row starts from a sampled floor (widen.model.neighbours._floors).
     rng = np.random.default_rng(8)
     normed = normalise_rows(rng.normal(size=(3000, 16)))
     idx, sims = top_k_table(normed, 20, block_rows=256)
@@ -99,7 +99,7 @@ def test_ties_are_ordered_by_index() -> None:
 
 
 def test_rows_with_a_floor_too_high_are_done_again(monkeypatch: pytest.MonkeyPatch) -> None:
-    import widen.neighbours as neighbours
+    import widen.model.neighbours as neighbours
 
     rng = np.random.default_rng(10)
     normed = normalise_rows(rng.normal(size=(500, 12)))
@@ -118,7 +118,7 @@ def test_rows_with_a_floor_too_high_are_done_again(monkeypatch: pytest.MonkeyPat
 
 @given(st.integers(min_value=1, max_value=23))
 def test_every_pair_of_blocks_once_and_no_block_twice_in_a_round(blocks: int) -> None:
-    from widen.neighbours import _rounds
+    from widen.model.neighbours import _rounds
 
     seen = []
     for first, second in _rounds(blocks):

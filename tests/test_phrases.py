@@ -6,7 +6,7 @@ import math
 
 from training.config import PhrasesSection
 from training.phrases import learn_phrases
-from widen.phrases import Phraser
+from widen.model.phrases import Phraser
 
 TINY = [
     ["lorry", "driver", "wanted"],

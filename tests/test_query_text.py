@@ -8,14 +8,11 @@ from pathlib import Path
 import pytest
 import tantivy
 
-from widen.decisions import DecisionSet
+from tests.helpers import Opened, open_store
 from widen.evaluation.index import SearchIndex
-from widen.expansion import expand
-from widen.lexicon import Lexicon
-from widen.options import ExpansionOptions
-from widen.query_text import merged_text
-from widen.store import Store
-from widen.text import tokens
+from widen.expansion.options import ExpansionOptions
+from widen.expansion.query_text import merged_text
+from widen.text.tokenize import tokens
 
 HOSTILE = [
     '"',
@@ -48,8 +45,8 @@ HOSTILE = [
 
 
 @pytest.fixture(scope="module")
-def lexicon(trained_store: Path) -> Lexicon:
-    return Lexicon(Store(trained_store).open_bundle())
+def lexicon(trained_store: Path) -> Opened:
+    return open_store(trained_store)
 
 
 @pytest.fixture(scope="module")
@@ -76,12 +73,12 @@ def _search(index: tantivy.Index, text: str, limit: int = 10_000) -> list[str]:
     return [searcher.doc(address)["id"][0] for _, address in searcher.search(query, limit).hits]
 
 
-def test_every_demo_query_parses(lexicon: Lexicon, index: tantivy.Index, demo_dir: Path) -> None:
+def test_every_demo_query_parses(lexicon: Opened, index: tantivy.Index, demo_dir: Path) -> None:
     with (demo_dir / "queries.jsonl").open(encoding="utf-8") as fh:
         queries = [json.loads(line)["query"] for line in fh]
     assert len(queries) > 100
     for q in queries:
-        text = expand(lexicon, DecisionSet(), q, ExpansionOptions()).query_text
+        text = lexicon.expand(q, ExpansionOptions()).query_text
         index.parse_query(text, ["title", "description"])  # raises ValueError on a syntax error
 
 
@@ -94,7 +91,7 @@ def fielded(demo_dir: Path, tmp_path_factory: pytest.TempPathFactory) -> SearchI
 @pytest.mark.parametrize("places", ["text", "field"])
 @pytest.mark.parametrize("match", ["job", "all"])
 def test_every_demo_query_parses_in_every_mode(
-    lexicon: Lexicon, fielded: SearchIndex, demo_dir: Path, places: str, match: str
+    lexicon: Opened, fielded: SearchIndex, demo_dir: Path, places: str, match: str
 ) -> None:
     """query_text and full_query, for every way of building them, parse in tantivy with its fields."""
     with (demo_dir / "queries.jsonl").open(encoding="utf-8") as fh:
@@ -102,7 +99,7 @@ def test_every_demo_query_parses_in_every_mode(
     options = lexicon.options.with_request(places=places, match=match)
     fields = 0
     for q in queries:
-        result = expand(lexicon, DecisionSet(), q, options)
+        result = lexicon.expand(q, options)
         for text in (result.query_text, result.full_query):
             if text:
                 fielded.parse(text)  # raises ValueError on a syntax error or an unknown field
@@ -112,8 +109,8 @@ def test_every_demo_query_parses_in_every_mode(
 
 
 @pytest.mark.parametrize("hostile", HOSTILE)
-def test_hostile_input_cannot_break_the_parser(lexicon: Lexicon, index: tantivy.Index, hostile: str) -> None:
-    text = expand(lexicon, DecisionSet(), hostile, ExpansionOptions()).query_text
+def test_hostile_input_cannot_break_the_parser(lexicon: Opened, index: tantivy.Index, hostile: str) -> None:
+    text = lexicon.expand(hostile, ExpansionOptions()).query_text
     if not tokens(hostile):
         assert text == ""
         return
@@ -122,8 +119,8 @@ def test_hostile_input_cannot_break_the_parser(lexicon: Lexicon, index: tantivy.
     assert "title:" not in text and "~" not in text and "*" not in text
 
 
-def test_expanded_query_finds_postings_that_use_another_name(lexicon: Lexicon, index: tantivy.Index) -> None:
-    result = expand(lexicon, DecisionSet(), "lorry driver", ExpansionOptions())
+def test_expanded_query_finds_postings_that_use_another_name(lexicon: Opened, index: tantivy.Index) -> None:
+    result = lexicon.expand("lorry driver", ExpansionOptions())
     assert "hgv driver" in result.query_text
     plain = set(_search(index, '"lorry driver"'))
     expanded = set(_search(index, result.query_text))

@@ -7,7 +7,6 @@ publish, damage and remove files under it, and stop and restart it.
 
 from __future__ import annotations
 
-import json
 import shutil
 import subprocess
 import sys
@@ -20,10 +19,10 @@ from pathlib import Path
 import httpx
 import pytest
 
+from tests.helpers import republish
 from tests.live_server import free_port, live_server, steady_load
-from widen.clock import new_version
-from widen.remote_store import StoreMirror, is_url, masked
-from widen.store import Store
+from widen.model.remote_store import StoreMirror, is_url, masked
+from widen.model.store import Store
 
 
 class StaticServer:
@@ -83,31 +82,6 @@ def static_server(folder: Path) -> Iterator[StaticServer]:
         server.stop()
 
 
-def publish_copy(store: Path, damage: str | None = None) -> str:
-    """Publish a copy of the store's first bundle under a new version, as the trainer would; `damage`:
-    flip (one byte of a file), truncate (a file cut short), remove (a file missing)."""
-    s = Store(store)
-    version = new_version(s.current_version() or "")
-    target = s.bundle_dir(version)
-    shutil.copytree(s.bundle_dir(s.versions()[0]), target)  # the first, sound bundle
-    manifest = json.loads((target / "manifest.json").read_text())
-    manifest["version"] = version
-    (target / "manifest.json").write_text(json.dumps(manifest))
-    victim = target / "neighbours_similarity.npy"
-    if damage == "flip":
-        data = bytearray(victim.read_bytes())
-        data[len(data) // 2] ^= 0x01
-        victim.write_bytes(bytes(data))
-    elif damage == "truncate":
-        victim.write_bytes(victim.read_bytes()[: victim.stat().st_size // 2])
-    elif damage == "remove":
-        victim.unlink()
-    elif damage == "manifest":
-        (target / "manifest.json").unlink()
-    s.set_current(version, by="test")
-    return version
-
-
 @pytest.fixture
 def served_store(trained_store: Path, tmp_path: Path) -> Path:
     store = tmp_path / "published"
@@ -141,16 +115,16 @@ def test_a_mirror_takes_only_whole_verified_bundles_and_keeps_the_old_one_on_any
             assert time.monotonic() < deadline, "no conditional request answered 304"
             time.sleep(0.1)
         for damage in ("flip", "truncate", "remove", "manifest"):
-            bad = publish_copy(served_store, damage)
+            bad = republish(served_store, damage)
             assert mirror.sync() == "failed", damage
             assert mirror.store.current_version() == first and bad not in mirror.store.versions()
             assert mirror.last_error
-        good = publish_copy(served_store)
+        good = republish(served_store)
         assert mirror.sync() == "mirrored" and mirror.store.current_version() == good
         # The server goes away: nothing changes here; it comes back: the next bundle arrives.
         server.stop()
         assert mirror.sync() == "failed" and mirror.store.current_version() == good
-        newer = publish_copy(served_store)
+        newer = republish(served_store)
         server.start()
         assert mirror.sync() == "mirrored" and mirror.store.current_version() == newer
         assert mirror.refusals == 5
@@ -168,7 +142,7 @@ def test_a_file_url_works_through_fsspec(served_store: Path, tmp_path: Path) -> 
     mirror = StoreMirror(served_store.as_uri(), tmp_path / "mirror", backoff=0.0)
     assert mirror.sync() == "mirrored"
     assert mirror.store.current_version() == Store(served_store).current_version()
-    publish_copy(served_store, "flip")
+    republish(served_store, "flip")
     assert mirror.sync() == "failed"
 
 
@@ -182,12 +156,12 @@ def test_a_replica_serving_a_url_swaps_within_two_polls_and_never_fails_a_reques
             base = replica.base
             assert httpx.get(f"{base}/v1/model").json()["version"] == Store(served_store).current_version()
             with steady_load([base], "staff nurse", 5) as failures:
-                good = publish_copy(served_store)
+                good = republish(served_store)
                 published = time.monotonic()
                 while httpx.get(f"{base}/v1/model").json()["version"] != good:
                     assert time.monotonic() - published < 2 * poll + 1.0, "served within two polls"
                     time.sleep(0.05)
-                bad = publish_copy(served_store, "flip")
+                bad = republish(served_store, "flip")
                 _until_a_sync_fails(base, "the flipped byte should be refused")
                 assert httpx.get(f"{base}/v1/model").json()["version"] == good  # the good bundle serves on
                 assert bad not in httpx.get(f"{base}/metrics").text

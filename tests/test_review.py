@@ -16,30 +16,19 @@ from pydantic import SecretStr
 
 from service.app import create_app
 from service.review.access import ReviewAccess
-from service.review.views import Candidate, compare_view, neighbour_map, phrase_view
+from service.review.views import CandidateRow, compare_view, neighbour_map, phrase_view
 from service.settings import Settings
-from widen.decisions import DecisionSet
-from widen.lexicon import Lexicon
-from widen.options import ExpansionOptions
-from widen.result import Clause, ExpansionResult, ModelInfo
-from widen.store import Store
+from tests.helpers import HOSTILE, open_store
+from widen.decisions.decision import DecisionSet
+from widen.expansion.options import ExpansionOptions
+from widen.expansion.result import Clause, ExpansionResult, ModelInfo
+from widen.model.store import Store
 
 TOKEN = "tollbridge-review-7f3a"
 REVIEWER = "Dana, search team"
 
 # Hostile strings a seeker (or a posting) could bring: tags, attribute-breaking quotes, a
 # script URL, a very long string, right-to-left overrides and mixed scripts.
-HOSTILE = [
-    "<script>alert('x')</script>",
-    '"><img src=x onerror=alert(1)>',
-    "' onmouseover='alert(1)' x='",
-    "javascript:alert(document.cookie)",
-    "</textarea><svg onload=alert(1)>",
-    "\u202eevird yrrol\u202c nurse",
-    "ممرضة staff nurse עברית",
-    "{{ 7*7 }} {% raw %}",
-    "lorry driver " + "x" * 5000,
-]
 
 
 def _client(store: Path, token: str | None = TOKEN, **extra: object) -> TestClient:
@@ -89,8 +78,9 @@ def test_page_shows_segments_candidates_reasons_and_query_text(client: TestClien
     got = client.get("/debug", params={"q": "lorry driver hensby"})
     assert got.status_code == 200
     html = got.text
-    lexicon = Lexicon(Store(trained_store).open_bundle())
-    result, views = phrase_view(lexicon, DecisionSet(), "lorry driver hensby", ExpansionOptions())
+    opened = open_store(trained_store)
+    lexicon = opened.lexicon
+    result, views = phrase_view(lexicon, opened.cache, DecisionSet(), "lorry driver hensby", ExpansionOptions())
     assert [v.text for v in views] == ["lorry driver", "hensby"]
     assert lexicon.version in html and lexicon.created_at in html
     assert result.query_text.replace('"', "&#34;") in html  # the final query_text, escaped
@@ -114,8 +104,9 @@ def test_page_shows_segments_candidates_reasons_and_query_text(client: TestClien
 
 
 def test_map_is_the_first_two_principal_components(trained_store: Path) -> None:
-    lexicon = Lexicon(Store(trained_store).open_bundle())
-    _, views = phrase_view(lexicon, DecisionSet(), "staff nurse", ExpansionOptions())
+    opened = open_store(trained_store)
+    lexicon = opened.lexicon
+    _, views = phrase_view(lexicon, opened.cache, DecisionSet(), "staff nurse", ExpansionOptions())
     rows = views[0].candidates[:12]
     points = neighbour_map(lexicon, "staff nurse", rows)
     assert points[0].role == "phrase" and len(points) == 13
@@ -359,8 +350,8 @@ def test_hostile_strings_are_shown_as_text(client: TestClient, hostile: str) -> 
 
 
 def test_candidate_bar_is_clamped() -> None:
-    assert Candidate("x", -0.3, False, None, None, "model", "below_min_similarity").bar == 0.0
-    assert Candidate("x", 0.75, True, 0.2, "related", "model", None).bar == 0.75
+    assert CandidateRow("x", -0.3, False, None, None, "model", "below_min_similarity").bar == 0.0
+    assert CandidateRow("x", 0.75, True, 0.2, "related", "model", None).bar == 0.75
 
 
 def test_withdrawing_an_id_out_of_range_is_a_clean_refusal(client: TestClient) -> None:

@@ -80,7 +80,7 @@ def test_workers_fork_from_a_parent_that_loaded_the_bundle_and_each_swaps_and_co
     bundle within the poll interval, and one scrape adds up both workers' metrics (prometheus-client's parser)."""
     from prometheus_client.parser import text_string_to_metric_families
 
-    from widen.store import Store
+    from widen.model.store import Store
 
     store = tmp_path / "store"
     shutil.copytree(two_bundle_store, store)

@@ -15,15 +15,15 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from tests.conftest import SMALL_POSTINGS, demo_config, train_quietly
+from tests.helpers import SMALL_POSTINGS, demo_config, train_quietly
 from training.config import load_config
 from widen.cli import main
-from widen.decisions import DecisionSet
+from widen.decisions.decision import DecisionSet
 from widen.errors import EXIT_REFUSED, ConfigError
 from widen.evaluation.index import SearchIndex
 from widen.evaluation.runs import evaluate, read_queries
-from widen.lexicon import Lexicon
-from widen.store import Store
+from widen.expansion.lexicon import Lexicon
+from widen.model.store import Store
 
 # A model that cannot have learned anything: one epoch at a learning rate near zero, and no duties
 # (a title's duties are counted from the corpus, so they would still find its other names).
@@ -35,14 +35,15 @@ def test_bundle_manifest_describes_the_bundle(trained_store: Path) -> None:
     version = store.current_version()
     assert version is not None
     manifest = store.manifest(version)
-    assert manifest["format_version"] == 1 and manifest["version"] == version
-    corpus = manifest["corpus"]
+    assert manifest.format_version == 1 and manifest.version == version
+    assert manifest.corpus is not None and manifest.gate is not None
+    corpus = manifest.corpus.model_dump()
     assert corpus["postings_read"] == SMALL_POSTINGS
     assert corpus["postings_used"] + corpus["duplicates"] == SMALL_POSTINGS
     assert len(corpus["sha256"]) == 64
-    assert manifest["config"]["embedding"]["vector_size"] == 100  # defaults are written out
-    assert manifest["gate"]["passed"] is True and manifest["gate"]["forced"] is False
-    assert set(manifest["files"]) >= {"vectors.kv", "vectors.kv.vectors.npy", "neighbours_index.npy", "phrases.json"}
+    assert manifest.config["embedding"]["vector_size"] == 100  # defaults are written out
+    assert manifest.gate.passed is True and manifest.gate.forced is False
+    assert set(manifest.files) >= {"vectors.kv", "vectors.kv.vectors.npy", "neighbours_index.npy", "phrases.json"}
     assert store.verify(version) == []
 
 
@@ -73,7 +74,8 @@ def test_force_promotes_a_refused_candidate_and_records_it(store_copy: Path, dem
     outcome = train_quietly(demo_dir / "postings.jsonl", store_copy, demo_config(demo_dir, **BROKEN), force=True)
     store = Store(store_copy)
     assert outcome.promoted and store.current_version() == outcome.version
-    assert store.manifest(outcome.version)["gate"]["forced"] is True
+    gate = store.manifest(outcome.version).gate
+    assert gate is not None and gate.forced is True
     assert store.read_journal()[-1]["forced"] is True
 
 
@@ -268,7 +270,9 @@ def test_gate_on_search_impact_compares_with_the_serving_bundle(store_copy: Path
     outcome = train_quietly(
         demo_dir / "postings.jsonl", store_copy, demo_config(demo_dir, **impact, **{"embedding.seed": 3})
     )
-    details = Store(store_copy).manifest(outcome.version)["gate"]["details"]["impact"]
+    gate = Store(store_copy).manifest(outcome.version).gate
+    assert gate is not None
+    details = gate.details["impact"]
     assert set(details["candidate"]) == {"recall@100", "ndcg@10", "exact_first"}
     assert details["current"] is not None
     assert outcome.promoted, outcome.gate.reasons

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from widen.text import normalise, sentences, tokens
+from widen.text.tokenize import normalise, sentences, tokens
 
 
 # Common practice, no source: these spellings are how the trade writes them, and splitting

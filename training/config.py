@@ -16,8 +16,8 @@ import tomli_w
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
 
 from widen.errors import ConfigError
-from widen.options import ExpansionOptions
-from widen.phrases import CONNECTOR_WORDS, Scoring
+from widen.expansion.options import ExpansionOptions
+from widen.model.phrases import CONNECTOR_WORDS, Scoring
 
 __all__ = ["TrainConfig", "ConfigError", "load_config"]
 

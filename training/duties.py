@@ -30,8 +30,8 @@ import numpy.typing as npt
 from scipy import sparse
 
 from training.config import DutiesSection
-from widen.neighbours import top_k_rows
-from widen.text import PHRASE_JOINER
+from widen.model.neighbours import top_k_rows
+from widen.text.forms import PHRASE_JOINER
 
 __all__ = ["DutyTable", "duty_table"]
 

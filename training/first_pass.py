@@ -21,8 +21,9 @@ from typing import IO
 from training.corpus import Posting, PostingCorpus
 from training.progress import Progress
 from training.titles import title_cores
-from widen.phrases import Phraser
-from widen.text import blocks, key_of_text
+from widen.model.phrases import Phraser
+from widen.text.forms import key_of_text
+from widen.text.tokenize import blocks
 
 __all__ = ["FirstPass", "Scratch"]
 

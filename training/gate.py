@@ -1,9 +1,9 @@
 """The promotion gate: is a candidate model at least as good as the one serving now?
 
 A pairs file lists phrase pairs a reviewer knows: `near` pairs (another name for the
-same job) should be each other's neighbours as the bundle serves them (in the skip-gram top k
-above a similarity floor, or titles posted with duties alike enough to be the same job); `far`
-pairs (different jobs, including the polysemy traps) should not. The score is the share of
+same job) should be each other's learned neighbours (in the skip-gram top k above a similarity
+floor, or titles posted with duties alike enough to be the same job); `far` pairs (different jobs,
+including the polysemy traps) should not. The score is the share of
 pair checks that hold. A candidate is refused when it scores below an absolute floor
 or more than a tolerance below the serving bundle on the same pairs.
 """
@@ -11,24 +11,22 @@ or more than a tolerance below the serving bundle on the same pairs.
 from __future__ import annotations
 
 import csv
-from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
 from typing import IO, Any
 
 import numpy as np
-import numpy.typing as npt
 
 from training.config import GateSection
-from widen.bundle import Bundle
-from widen.decisions import DecisionSet
+from widen.decisions.decision import DecisionSet
 from widen.errors import PairsError
 from widen.evaluation.index import SearchIndex
 from widen.evaluation.runs import evaluate, read_queries
-from widen.lexicon import Lexicon
-from widen.text import key_of_text
+from widen.expansion.cache import ExpansionCache
+from widen.expansion.lexicon import Lexicon
+from widen.text.forms import key_of_text
 
-__all__ = ["Pair", "Tables", "read_pairs", "score_pairs", "search_impact", "GateResult", "decide"]
+__all__ = ["Pair", "read_pairs", "score_pairs", "search_impact", "GateResult", "decide"]
 
 
 @dataclass(frozen=True)
@@ -59,65 +57,35 @@ def read_pairs(path: Path) -> list[Pair]:
     return pairs
 
 
-@dataclass(frozen=True)
-class Tables:
-    """What a bundle serves as neighbours: the skip-gram table, and the duties table with the cosine at
-    which two titles count as the same job (`equivalent`, the bundle's split-half cosine times the
-    served option `equivalent_duties`); `duty_rows` is None for a bundle without duties."""
-
-    index: Mapping[str, int]
-    neighbour_index: npt.NDArray[np.int32]
-    neighbour_similarity: npt.NDArray[np.float32]
-    duty_rows: npt.NDArray[np.int32] | None = None
-    duty_index: npt.NDArray[np.int32] | None = None
-    duty_similarity: npt.NDArray[np.float32] | None = None
-    equivalent: float | None = None
-
-    @classmethod
-    def of(cls, bundle: Bundle) -> Tables:
-        split = (bundle.manifest.get("duties") or {}).get("split_half")
-        threshold = bundle.options.equivalent_duties * split if split else None
-        return cls(
-            bundle.index,
-            bundle.neighbour_index,
-            bundle.neighbour_similarity,
-            bundle.duty_rows,
-            bundle.duty_index,
-            bundle.duty_similarity,
-            threshold,
-        )
-
-
-def _within(tables: Tables, a: str, b: str, top_k: int, floor: float) -> bool:
-    """b is a's neighbour as served: in a's skip-gram top k above the floor, or a title posted with
-    duties alike enough to count as the same job."""
-    ia, ib = tables.index.get(key_of_text(a)), tables.index.get(key_of_text(b))
+def _learned(lex: Lexicon, cache: ExpansionCache, a: str, b: str, top_k: int, floor: float) -> bool:
+    """b is among a's learned neighbours: in a's skip-gram top k above the floor, or a title posted with
+    duties alike enough to count as the same job (the served `equivalent_duties` of the bundle's own
+    split-half cosine). The pairs judge what the model learned, not what the service's filters keep of
+    it, because the filters' options change without a retrain; `gate.queries` judges what is served."""
+    ia, ib = lex.index.get(key_of_text(a)), lex.index.get(key_of_text(b))
     if ia is None or ib is None:
         return False
-    row = tables.neighbour_index[ia, :top_k]
+    row = lex.bundle.neighbour_index[ia, :top_k]
     hits = np.nonzero(row == ib)[0]
-    if hits.size and float(tables.neighbour_similarity[ia, hits[0]]) >= floor:
+    if hits.size and float(lex.bundle.neighbour_similarity[ia, hits[0]]) >= floor:
         return True
-    rows, threshold = tables.duty_rows, tables.equivalent
-    if rows is None or threshold is None or tables.duty_index is None or tables.duty_similarity is None:
+    if lex.split_half is None:
         return False
-    if rows[ia] < 0:
-        return False
-    r = int(rows[ia])
-    found = np.nonzero(tables.duty_index[r] == ib)[0]
-    return bool(found.size) and float(tables.duty_similarity[r, found[0]]) >= threshold
+    similarity = cache.duty_neighbours(ia).get(ib)
+    return similarity is not None and similarity >= lex.options.equivalent_duties * lex.split_half
 
 
-def score_pairs(tables: Tables, pairs: list[Pair], config: GateSection) -> dict[str, Any]:
-    """Score what a bundle serves on the pairs; each pair is checked in both directions."""
+def score_pairs(lex: Lexicon, pairs: list[Pair], config: GateSection) -> dict[str, Any]:
+    """Score a bundle's learned neighbours on the pairs; each pair is checked in both directions."""
+    cache = ExpansionCache(lex)
     checks = near_ok = near_n = far_ok = far_n = 0
     failed: list[dict[str, str]] = []
     missing: list[str] = []
     for pair in pairs:
         for x, y in ((pair.a, pair.b), (pair.b, pair.a)):
-            if key_of_text(x) not in tables.index and x not in missing:
+            if key_of_text(x) not in lex.index and x not in missing:
                 missing.append(x)
-            hit = _within(tables, x, y, config.top_k, config.min_similarity)
+            hit = _learned(lex, cache, x, y, config.top_k, config.min_similarity)
             checks += 1
             if pair.near:
                 near_n += 1
@@ -139,8 +107,8 @@ def score_pairs(tables: Tables, pairs: list[Pair], config: GateSection) -> dict[
 
 
 def search_impact(
-    candidate: Bundle,
-    serving: Bundle | None,
+    candidate: Lexicon,
+    serving: Lexicon | None,
     decisions: DecisionSet,
     queries: Path,
     postings: Path,
@@ -154,8 +122,7 @@ def search_impact(
     print(f"[gate] search impact on {len(labelled)} labelled queries", file=out, flush=True)
     index = SearchIndex(postings, index_folder)
 
-    def score(bundle: Bundle) -> dict[str, float]:
-        lexicon = Lexicon(bundle)
+    def score(lexicon: Lexicon) -> dict[str, float]:
         report = evaluate(lexicon, decisions, index, labelled, lexicon.options, methods=("all_required", "widen"))
         return {k: report["methods"]["widen"][k] for k in ("recall@100", "ndcg@10", "exact_first")}
 

@@ -15,8 +15,8 @@ from collections.abc import Callable, Collection, Iterable
 from gensim.models.phrases import FrozenPhrases, Phrases
 
 from training.config import PhrasesSection
-from widen.phrases import Phraser, PhraseRow
-from widen.text import PHRASE_JOINER, words_in
+from widen.model.phrases import Phraser, PhraseRow
+from widen.text.forms import PHRASE_JOINER, words_in
 
 __all__ = ["learn_phrases", "phrase_filter"]
 

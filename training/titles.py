@@ -12,11 +12,13 @@ not join them, so a three-word title stays one segment ("early years practitione
 from __future__ import annotations
 
 import re
-from collections.abc import Iterable
+from collections import Counter
+from collections.abc import Callable, Collection, Iterable
 
-from widen.text import PHRASE_JOINER, is_number, normalise, tokens
+from widen.text.forms import PHRASE_JOINER
+from widen.text.tokenize import is_number, normalise, tokens
 
-__all__ = ["title_cores", "is_short_number"]
+__all__ = ["title_cores", "is_short_number", "fragments", "title_test"]
 
 _SEPARATORS = re.compile(r"\s[-\u2013\u2014|/~]\s|[|()\[\]{}!?*:;,]")
 
@@ -55,3 +57,42 @@ def title_cores(title: str, drop: frozenset[str], own: Iterable[str], longest: i
             emit(run)
             run = []
     return cores
+
+
+def fragments(in_titles: Counter[str], share: float = 0.2) -> set[str]:
+    """Title entries that are mostly a piece of longer titles ("pot" of "pot washer", "nurse" of "staff
+    nurse"): seen alone in fewer titles than `share` of the titles that hold them inside a longer one.
+    Alone, such a piece is a typo's leftover or a shorthand, not a title with duties of its own."""
+    spans: Counter[str] = Counter()
+    for entry, n in in_titles.items():
+        words = entry.split(PHRASE_JOINER)
+        for size in range(1, len(words)):
+            for i in range(len(words) - size + 1):
+                spans[PHRASE_JOINER.join(words[i : i + size])] += n
+    return {e for e, inside in spans.items() if e in in_titles and in_titles[e] < share * inside}
+
+
+def title_test(
+    protected: Collection[str], in_titles: Counter[str], decoration: frozenset[str], modifiers: frozenset[str]
+) -> Callable[[str], bool]:
+    """Whether a vocabulary entry is a job title: used in titles, not a place or employer name, not a
+    piece of longer titles (`fragments`), not only decoration, no number but a short one inside; a
+    modifier glued to a piece of a title ("trainee_dental") is no title, glued to a whole one
+    ("senior_carer") it is."""
+    pieces = fragments(in_titles)
+
+    def is_title(entry: str) -> bool:
+        words = entry.split(PHRASE_JOINER)
+        lead = next((n for n, w in enumerate(words) if w not in modifiers), len(words))
+        rest = PHRASE_JOINER.join(words[lead:])
+        return (
+            entry not in protected
+            and entry not in pieces
+            and not all(w in decoration for w in words)
+            and not is_number(words[0])
+            and not is_number(words[-1])
+            and all(not is_number(w) or is_short_number(w) for w in words)
+            and (lead == 0 or (rest in in_titles and rest not in pieces))
+        )
+
+    return is_title

@@ -28,10 +28,10 @@ from service.review.access import REVIEWER_COOKIE, SESSION_COOKIE, ReviewAccess
 from service.review.views import compare_view, phrase_view
 from service.routes import State
 from service.state import ServiceState
-from widen.decisions import Decision
+from widen.decisions.decision import Decision
 from widen.errors import BundleError, DecisionError, DecisionsUnavailable
-from widen.expansion import expand
-from widen.query_text import baseline_text
+from widen.expansion.expand import expand
+from widen.expansion.query_text import baseline_text
 
 __all__ = ["router"]
 
@@ -119,13 +119,14 @@ def _phrase_page(
         return _page(request, state, "review_phrase.html", status, result=None, views=[], **values)
     q = q[: state.settings.max_query_chars]
     options = serving.options
-    result, views = phrase_view(serving.lexicon, state.decisions, q, options)
+    result, views = phrase_view(serving.lexicon, serving.cache, state.decisions, q, options)
     active = _entries(state)
     views = [replace(v, decisions=[d for d in active if d.phrase == v.text]) for v in views]
     values.update(result=result, views=views)
     if compare and compare != serving.version:
         try:
-            right = expand(state.lexicon_of(compare), state.decisions, q, options)
+            other = state.serving_of(compare)  # judged with the options serving now, side by side
+            right = expand(other.lexicon, state.decisions, q, options, cache=other.cache)
             values.update(compared=right, changes=compare_view(result, right))
         except (BundleError, OSError, ValueError) as exc:
             values["compare_error"] = f"bundle {compare} cannot be opened: {exc}"

@@ -7,15 +7,16 @@ from typing import Any
 
 import numpy as np
 
-from widen.decisions import Decision, DecisionSet
-from widen.expansion import expand
-from widen.lexicon import Lexicon
-from widen.options import ExpansionOptions
-from widen.result import DROP_REASONS, ExpansionResult
-from widen.text import key_of
+from widen.decisions.decision import Decision, DecisionSet
+from widen.expansion.cache import ExpansionCache
+from widen.expansion.expand import expand
+from widen.expansion.lexicon import Lexicon
+from widen.expansion.options import ExpansionOptions
+from widen.expansion.result import DROP_REASONS, ExpansionResult
+from widen.text.forms import key_of_phrase
 
 __all__ = [
-    "Candidate",
+    "CandidateRow",
     "MapPoint",
     "SegmentView",
     "Change",
@@ -29,7 +30,7 @@ MAP_POINTS = 15  # the closest candidates drawn on the map; more and the labels 
 
 
 @dataclass(frozen=True)
-class Candidate:
+class CandidateRow:
     phrase: str
     similarity: float
     kept: bool
@@ -61,7 +62,7 @@ class SegmentView:
     index: int
     text: str
     kind: str
-    candidates: list[Candidate]
+    candidates: list[CandidateRow]
     map: list[MapPoint] = field(default_factory=list)
     decisions: list[Decision] = field(default_factory=list)
     field: str | None = None
@@ -70,7 +71,7 @@ class SegmentView:
 
 def _vector(lex: Lexicon, phrase: str) -> np.ndarray[Any, Any] | None:
     """The unit input vector of a phrase: its own entry, or the mean of its known words."""
-    j = lex.index.get(key_of(phrase))
+    j = lex.index.get(key_of_phrase(phrase))
     if j is not None:
         return np.asarray(lex.normed[j], dtype=np.float64)
     rows = [lex.index[w] for w in phrase.split(" ") if w in lex.index]
@@ -82,7 +83,7 @@ def _vector(lex: Lexicon, phrase: str) -> np.ndarray[Any, Any] | None:
 
 
 def neighbour_map(
-    lex: Lexicon, phrase: str, candidates: list[Candidate], width: float = 480, height: float = 300
+    lex: Lexicon, phrase: str, candidates: list[CandidateRow], width: float = 480, height: float = 300
 ) -> list[MapPoint]:
     """The phrase and its candidates projected on their first two principal components (PCA
     by singular value decomposition of the centred vectors), scaled into a width x height box."""
@@ -119,17 +120,18 @@ def neighbour_map(
 
 
 def phrase_view(
-    lex: Lexicon, decisions: DecisionSet, query: str, options: ExpansionOptions
+    lex: Lexicon, cache: ExpansionCache, decisions: DecisionSet, query: str, options: ExpansionOptions
 ) -> tuple[ExpansionResult, list[SegmentView]]:
     """Expand with every drop explained; one view per segment, kept and dropped by similarity."""
-    result = expand(lex, decisions, query, options, explain=True)
+    result = expand(lex, decisions, query, options, explain=True, cache=cache)
     views = []
     for s, segment in enumerate(result.segments):
         rows = [
-            Candidate(e.phrase, e.similarity, True, e.weight, e.relation, e.source, None) for e in segment.expansions
+            CandidateRow(e.phrase, e.similarity, True, e.weight, e.relation, e.source, None) for e in segment.expansions
         ]
         rows += [
-            Candidate(d.phrase, d.similarity, False, None, d.relation, "model", d.reason) for d in segment.dropped or []
+            CandidateRow(d.phrase, d.similarity, False, None, d.relation, "model", d.reason)
+            for d in segment.dropped or []
         ]
         rows.sort(key=lambda c: (-c.similarity, c.phrase))
         points = neighbour_map(lex, segment.text, rows[:MAP_POINTS]) if rows else []

@@ -11,9 +11,9 @@ from service.auth import require_reviewer
 from service.errors import ERRORS, ApiError
 from service.routes import State
 from service.wire import DecisionExport, DecisionList, DecisionRequest, ImportResponse
-from widen.decisions import MAX_ID, Decision
+from widen.decisions.decision import MAX_ID, Decision
 from widen.errors import DecisionError, DecisionMissing, DecisionWithdrawn
-from widen.text import phrase_of
+from widen.text.forms import phrase_of_text
 
 __all__ = ["router"]
 
@@ -35,7 +35,7 @@ def decisions_list(
     if state_ == "withdrawn":
         rows = [d for d in rows if d.withdrawn_at is not None]
     if phrase is not None:
-        rows = [d for d in rows if d.phrase == phrase_of(phrase)]
+        rows = [d for d in rows if d.phrase == phrase_of_text(phrase)]
     if action is not None:
         rows = [d for d in rows if d.action == action]
     return DecisionList(decisions=rows)

@@ -11,9 +11,9 @@ from service.errors import ERRORS, ApiError
 from service.routes import State
 from service.state import ServiceState
 from service.wire import BatchRequest, BatchResponse, ExpandRequest, RequestOptions
-from widen.expansion import expand
-from widen.result import ExpansionResult
-from widen.text import tokens
+from widen.expansion.expand import expand
+from widen.expansion.result import ExpansionResult
+from widen.text.tokenize import tokens
 
 __all__ = ["router", "expand_one"]
 
@@ -46,7 +46,7 @@ def expand_one(state: ServiceState, query: str, asked: RequestOptions, field: st
         places=asked.places,
         match=asked.match,
     )
-    return expand(serving.lexicon, state.decisions, query, options, explain=asked.explain)
+    return expand(serving.lexicon, state.decisions, query, options, explain=asked.explain, cache=serving.cache)
 
 
 def _json(result: ExpansionResult | BatchResponse) -> Response:

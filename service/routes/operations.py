@@ -22,13 +22,15 @@ async def model(state: State) -> ModelResponse:
     if serving is None:
         raise ApiError(503, "not_ready", state.not_ready_reason)
     m = serving.lexicon.bundle.manifest
-    corpus = {k: m["corpus"].get(k) for k in ("sha256", "postings_read", "postings_used", "duplicates", "skipped")}
-    gate = {k: m["gate"].get(k) for k in ("passed", "score", "current_score", "forced")}
+    told = m.corpus.model_dump() if m.corpus else {}
+    corpus = {k: told.get(k) for k in ("sha256", "postings_read", "postings_used", "duplicates", "skipped")}
+    judged = m.gate.model_dump() if m.gate else {}
+    gate = {k: judged.get(k) for k in ("passed", "score", "current_score", "forced")}
     return ModelResponse(
-        version=m["version"],
-        created_at=m["created_at"],
-        vocabulary_size=m["vocabulary_size"],
-        phrase_count=m["phrase_count"],
+        version=m.version,
+        created_at=m.created_at,
+        vocabulary_size=m.vocabulary_size,
+        phrase_count=m.phrase_count,
         corpus=corpus,
         gate=gate,
     )

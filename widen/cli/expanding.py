@@ -11,11 +11,11 @@ from typing import Any
 from pydantic import ValidationError
 
 from widen.cli.tables import render_expansion
-from widen.decision_stores import open_decision_store
+from widen.decisions.open_store import open_decision_store
 from widen.errors import EXIT_OK, BadInput
-from widen.expansion import expand as expand_query
-from widen.lexicon import Lexicon
-from widen.store import Store
+from widen.expansion.expand import expand as expand_query
+from widen.expansion.lexicon import Lexicon
+from widen.model.store import Store
 
 __all__ = ["expand", "evaluate"]
 

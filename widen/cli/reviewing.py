@@ -6,9 +6,9 @@ import argparse
 import json
 
 from widen.cli.tables import table
-from widen.decision_stores import open_decision_store
+from widen.decisions.open_store import open_decision_store
 from widen.errors import EXIT_OK, BadInput, DecisionError
-from widen.store import Store
+from widen.model.store import Store
 
 __all__ = ["decide", "decisions"]
 

@@ -8,7 +8,7 @@ import sys
 
 from widen.cli.tables import table
 from widen.errors import EXIT_OK, BadInput, BundleError
-from widen.store import Store
+from widen.model.store import Store
 
 __all__ = ["train", "bundles", "promote", "rollback"]
 
@@ -60,11 +60,13 @@ def _promote_version(store: Store, version: str, force: bool, by: str) -> int:
     problems = store.verify(version)
     if problems:
         raise BundleError("; ".join(problems))
-    gate = store.manifest(version).get("gate") or {}
-    if not gate.get("passed") and not force:
-        raise BadInput(f"{version} was refused by the gate ({'; '.join(gate.get('reasons', []))}); add --force")
+    gate = store.manifest(version).gate
+    passed = gate is not None and gate.passed
+    if not passed and not force:
+        reasons = "; ".join(gate.reasons) if gate is not None else "no gate result"
+        raise BadInput(f"{version} was refused by the gate ({reasons}); add --force")
     with store.locked():
-        store.set_current(version, by=by, forced=not gate.get("passed"))
+        store.set_current(version, by=by, forced=not passed)
     print(f"now serving {version}")
     return EXIT_OK
 

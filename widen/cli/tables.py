@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
-from widen.result import DROP_REASONS, ExpansionResult
+from widen.expansion.result import DROP_REASONS, ExpansionResult
 
 __all__ = ["table", "render_expansion"]
 

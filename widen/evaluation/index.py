@@ -17,8 +17,8 @@ from pathlib import Path
 
 import tantivy
 
-from widen.bundle import sha256_file
-from widen.text import normalise
+from widen.model.bundle import sha256_file
+from widen.text.tokenize import normalise
 
 __all__ = ["SearchIndex", "Hit", "TITLE_BOOST", "FIELDS"]
 

@@ -26,10 +26,11 @@ import tantivy
 
 from widen.evaluation.index import SearchIndex
 from widen.evaluation.rm3 import RM3
-from widen.options import ExpansionOptions
-from widen.query_text import BASELINE_BOOST, JOBS, baseline_text, merged_text, render
-from widen.result import Clause, ExpansionResult
-from widen.text import phrase_of, tokens
+from widen.expansion.options import ExpansionOptions
+from widen.expansion.query_text import BASELINE_BOOST, JOBS, baseline_text, merged_text, render
+from widen.expansion.result import Clause, ExpansionResult
+from widen.text.forms import phrase_of_text
+from widen.text.tokenize import tokens
 
 __all__ = ["METHODS", "CuratedList", "bag_of_words_text", "method_queries"]
 
@@ -59,7 +60,7 @@ class CuratedList:
         self.weight = weight
         self.synonyms: dict[str, list[str]] = {}
         for family in truth["families"]:
-            titles = [phrase_of(t) for t in family["equivalent"]]
+            titles = [phrase_of_text(t) for t in family["equivalent"]]
             for title in titles:
                 self.synonyms.setdefault(title, []).extend(t for t in titles if t != title)
 

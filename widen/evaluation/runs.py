@@ -17,15 +17,16 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from widen.decisions import DecisionSet
+from widen.decisions.decision import DecisionSet
 from widen.evaluation.index import SearchIndex
 from widen.evaluation.methods import METHODS, CuratedList, method_queries
 from widen.evaluation.metrics import ndcg_at, recall_at, reciprocal_rank, trec_order
 from widen.evaluation.rm3 import RM3
 from widen.evaluation.significance import paired_randomisation
-from widen.expansion import expand
-from widen.lexicon import Lexicon
-from widen.options import ExpansionOptions
+from widen.expansion.cache import ExpansionCache
+from widen.expansion.expand import expand
+from widen.expansion.lexicon import Lexicon
+from widen.expansion.options import ExpansionOptions
 
 __all__ = ["LabelledQuery", "evaluate", "read_queries", "RUN_DEPTH", "KINDS"]
 
@@ -98,6 +99,7 @@ def evaluate(
 
     widen's query names places in the index's own fields (`places = "field"`): the index has them."""
     options = options.with_request(places=places)
+    cache = ExpansionCache(lexicon)
     chosen = [m for m in (methods or METHODS) if m != "curated" or truth is not None]
     curated = CuratedList(truth) if truth is not None else None
     feedback = rm3 or RM3()
@@ -111,7 +113,7 @@ def evaluate(
         if not any(g >= 1 for g in relevant.values()):
             continue
         qrels[q.id] = relevant
-        result = expand(lexicon, decisions, q.query, options)
+        result = expand(lexicon, decisions, q.query, options, cache=cache)
         built, exact_text = method_queries(index, q.query, result, options, feedback, curated, chosen, lexicon.names)
         exact = index.matching(exact_text) if exact_text else set()
         row: dict[str, Any] = {"id": q.id, "query": q.query, "family": q.family, "kind": q.kind, "base": q.base}

@@ -11,27 +11,29 @@ from __future__ import annotations
 
 from typing import Any
 
-from widen.decisions import DecisionSet
-from widen.expansion import expand
-from widen.lexicon import Lexicon
-from widen.options import ExpansionOptions
-from widen.text import phrase_of
+from widen.decisions.decision import DecisionSet
+from widen.expansion.cache import ExpansionCache
+from widen.expansion.expand import expand
+from widen.expansion.lexicon import Lexicon
+from widen.expansion.options import ExpansionOptions
+from widen.text.forms import phrase_of_text
 
 __all__ = ["scorecard"]
 
 
 def scorecard(lexicon: Lexicon, truth: dict[str, Any], options: ExpansionOptions) -> dict[str, Any]:
     families = truth["families"]
-    title_family = {phrase_of(t): f["name"] for f in families for t in f["equivalent"]}
+    cache = ExpansionCache(lexicon)
+    title_family = {phrase_of_text(t): f["name"] for f in families for t in f["equivalent"]}
     found = wanted = good = same = offered = eq_right = eq_offered = rel_right = rel_offered = 0
     rows = []
     for family in families:
-        own = [phrase_of(t) for t in family["equivalent"]]
-        related_families = {title_family.get(phrase_of(r)) for r in family["related"]} - {None}
+        own = [phrase_of_text(t) for t in family["equivalent"]]
+        related_families = {title_family.get(phrase_of_text(r)) for r in family["related"]} - {None}
         related = {t for t, f in title_family.items() if f in related_families} | {
-            phrase_of(r) for r in family["related"]
+            phrase_of_text(r) for r in family["related"]
         }
-        result = expand(lexicon, DecisionSet(), family["equivalent"][0], options)
+        result = expand(lexicon, DecisionSet(), family["equivalent"][0], options, cache=cache)
         expansions = [e for s in result.segments for e in s.expansions]
         phrases = [e.phrase for e in expansions]
         hits = [t for t in own[1:] if t in phrases]

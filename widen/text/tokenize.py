@@ -1,4 +1,4 @@
-"""Text: the one tokeniser of widen, and every way a phrase is written.
+"""The one tokeniser of widen, for postings and queries alike.
 
 Postings at training time and queries at serving time go through the same steps, so a
 query token is spelled exactly as the corpus token it should match: HTML tags stripped
@@ -7,12 +7,6 @@ sentences, then into tokens. Trade tokens stay whole (c++, c#, .net, a&e, 24/7, 
 node.js, k-12, h.c.a.); lone punctuation is dropped. A hyphenated compound is its words
 ("part-time" is "part time", "left-wing" is "left wing"), and so are contractions and
 possessives ("employer's" is "employer s"), unless a part holds a digit ("k-12", "covid-19").
-
-A phrase has three written forms, and this module is the only one that converts between them:
-- the *phrase*: its tokens joined by one space ("staff nurse"), what people read and decisions key on;
-- the *key*: its tokens joined by `PHRASE_JOINER` ("staff_nurse"), the vocabulary entry;
-- the *form*: the phrase with connectors, punctuation, spaces and a plural "s" ignored
-  ("h.c.a." and "hca" share one), to tell another spelling from another phrase.
 """
 
 from __future__ import annotations
@@ -21,26 +15,7 @@ import html
 import re
 import unicodedata
 
-__all__ = [
-    "PHRASE_JOINER",
-    "normalise",
-    "blocks",
-    "sentences",
-    "tokens",
-    "phrase_of",
-    "key_of",
-    "display",
-    "key_of_text",
-    "words_in",
-    "in_windows",
-    "is_number",
-    "form",
-    "same_form",
-]
-
-#: How the phrase model joins the words of a phrase into one vocabulary entry.
-#: The tokeniser never emits it, so it cannot collide with a corpus token.
-PHRASE_JOINER = "_"
+__all__ = ["normalise", "blocks", "sentences", "tokens", "in_windows", "is_number"]
 
 _BLOCK_TAG = re.compile(
     r"<\s*/?\s*(?:p|br|li|ul|ol|div|h[1-6]|tr|td|th|table|section|article|header|footer|hr)\b[^>]*>",
@@ -152,49 +127,3 @@ def in_windows(entry: str) -> bool:
 def tokens(text: str) -> list[str]:
     """All tokens of text in order, sentence breaks ignored (used for queries)."""
     return [tok for sentence in sentences(text) for tok in sentence]
-
-
-def phrase_of(text: str) -> str:
-    """The phrase of any text: its tokens joined by one space ("Staff Nurse (RN)" -> "staff nurse rn")."""
-    return " ".join(tokens(text))
-
-
-def key_of(phrase: str) -> str:
-    """The vocabulary key of a phrase already in phrase form ("staff nurse" -> "staff_nurse")."""
-    return phrase.replace(" ", PHRASE_JOINER)
-
-
-def display(key: str) -> str:
-    """The phrase of a vocabulary key ("staff_nurse" -> "staff nurse")."""
-    return key.replace(PHRASE_JOINER, " ")
-
-
-def key_of_text(text: str) -> str:
-    """The vocabulary key any written text would have: its tokens joined as the phrase model joins them."""
-    return PHRASE_JOINER.join(tokens(text))
-
-
-def words_in(key: str) -> int:
-    """How many words a vocabulary key (or a phrase) holds."""
-    return key.count(PHRASE_JOINER) + key.count(" ") + 1
-
-
-_FORM_PUNCT = re.compile(r"[.\-'&+/#]")
-
-
-def form(phrase: str, connectors: frozenset[str]) -> str:
-    """The phrase with connectors, punctuation, spaces and a plural 's' ignored."""
-    out = []
-    for word in phrase.split(" "):
-        if word in connectors:
-            continue
-        word = _FORM_PUNCT.sub("", word)
-        if len(word) > 3 and word.endswith("s") and not word.endswith("ss"):
-            word = word[:-1]
-        out.append(word)
-    return "".join(out)
-
-
-def same_form(a: str, b: str, connectors: frozenset[str]) -> bool:
-    """The same words in another spelling ("h.c.a." and "hca", "care assistants" and "care assistant")."""
-    return form(a, connectors) == form(b, connectors)

@@ -30,9 +30,9 @@ import time
 from pathlib import Path, PurePosixPath
 from typing import Any
 
-from widen.bundle import verify_folder
 from widen.errors import BundleError
-from widen.store import Store
+from widen.model.bundle import verify_folder
+from widen.model.store import Store
 
 __all__ = ["StoreMirror", "is_url", "masked", "mirror_folder"]
 

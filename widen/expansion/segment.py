@@ -22,16 +22,18 @@ from collections.abc import Callable, Collection, Mapping, Sequence
 from dataclasses import dataclass
 from typing import NamedTuple
 
-from widen.text import PHRASE_JOINER, is_number, tokens, words_in
+from widen.text.forms import PHRASE_JOINER, words_in
+from widen.text.tokenize import is_number, tokens
 
-__all__ = ["Piece", "Vocabulary", "segment_query"]
+__all__ = ["Span", "Vocabulary", "segment_query"]
 
 _QUOTED = re.compile(r'"([^"]*)"')
 
 
-class Piece(NamedTuple):
-    """One segment: its vocabulary key (words joined by the phrase joiner), its kind, and the words as
-    the seeker typed them when a spelling correction changed them (`typed`).
+class Span(NamedTuple):
+    """A run of the query's words as segmentation read it (the result shows it as a `Segment`): its
+    vocabulary key (words joined by the phrase joiner), its kind, and the words as the seeker typed
+    them when a spelling correction changed them (`typed`).
 
     `parts` are the known entries a composed vector is built from (empty unless composed); `field`,
     the dump's field of a protected name; `pattern`, the name of a shift pattern. A named tuple,
@@ -109,23 +111,23 @@ def _unglue(entries: list[str], vocab: Vocabulary) -> list[str]:
     return out
 
 
-def _classify(key: str, vocab: Vocabulary, parts: Sequence[str], typed: str) -> Piece:
+def _classify(key: str, vocab: Vocabulary, parts: Sequence[str], typed: str) -> Span:
     words = key.split(PHRASE_JOINER)
     if key in vocab.spellings:
-        return Piece(key, "pattern", typed=typed, pattern=vocab.spellings[key])
+        return Span(key, "pattern", typed=typed, pattern=vocab.spellings[key])
     if all(w in vocab.noise for w in words):
-        return Piece(key, "noise", typed=typed)
+        return Span(key, "noise", typed=typed)
     if key in vocab.names:
         field = vocab.names[key]
         kind = {"location": "place", "employer": "employer"}.get(field, "protected")
-        return Piece(key, kind, typed=typed, field=field)
+        return Span(key, kind, typed=typed, field=field)
     if all(w in vocab.modifiers for w in words):
-        return Piece(key, "modifier", typed=typed)
+        return Span(key, "modifier", typed=typed)
     if key in vocab.entries:
-        return Piece(key, "phrase" if PHRASE_JOINER in key else "term", typed=typed)
+        return Span(key, "phrase" if PHRASE_JOINER in key else "term", typed=typed)
     if len(parts) > 1 and all(p in vocab.entries for p in parts):
-        return Piece(key, "unknown", tuple(parts), typed=typed)
-    return Piece(key, "unknown", typed=typed)
+        return Span(key, "unknown", tuple(parts), typed=typed)
+    return Span(key, "unknown", typed=typed)
 
 
 def _corrected(toks: list[str], vocab: Vocabulary) -> list[str]:
@@ -137,7 +139,7 @@ def _corrected(toks: list[str], vocab: Vocabulary) -> list[str]:
     return out
 
 
-def _spans(original: list[str], keys: list[str]) -> list[str]:
+def _typed_words(original: list[str], keys: list[str]) -> list[str]:
     """The typed words behind each segment key (a correction keeps the number of words)."""
     typed, i = [], 0
     for key in keys:
@@ -153,9 +155,9 @@ def segment_query(
     vocab: Vocabulary,
     max_words: int,
     max_tokens: int,
-) -> list[Piece]:
+) -> list[Span]:
     """Segments of a query, in order; at most `max_tokens` tokens are looked at."""
-    pieces: list[Piece] = []
+    spans: list[Span] = []
     budget = max_tokens
     position = 0
     chunks: list[tuple[str, bool]] = []
@@ -174,12 +176,12 @@ def segment_query(
         if quoted:
             key = PHRASE_JOINER.join(fixed)
             typed = " ".join(toks) if fixed != toks else ""
-            pieces.append(_classify(key, vocab, _greedy(phraser(list(fixed)), vocab.known, max_words), typed))
+            spans.append(_classify(key, vocab, _greedy(phraser(list(fixed)), vocab.known, max_words), typed))
             continue
         keys = _greedy(_unglue(phraser(list(fixed)), vocab), vocab.known, max_words)
-        for key, typed in zip(keys, _spans(toks, keys), strict=True):
+        for key, typed in zip(keys, _typed_words(toks, keys), strict=True):
             written = typed if typed != key.replace(PHRASE_JOINER, " ") else ""
-            pieces.append(_classify(key, vocab, key.split(PHRASE_JOINER), written))
+            spans.append(_classify(key, vocab, key.split(PHRASE_JOINER), written))
         if budget <= 0:
             break
-    return pieces
+    return spans

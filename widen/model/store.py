@@ -3,7 +3,7 @@
 STORE/
   CURRENT              version of the serving bundle (replaced by an atomic rename)
   journal.jsonl        every change of CURRENT: when, to what, from what, by whom, why
-  bundles/VERSION/     one published bundle (its layout: `widen.bundle`)
+  bundles/VERSION/     one published bundle (its layout: `widen.model.bundle`)
   decisions.sqlite     reviewer decisions (+ -wal, -shm), when no database URL is configured
   search-index/SHA/    tantivy indexes `widen evaluate` and the gate built, one per postings file
   .work/               bundles being written; whatever is here at the start of a run is debris
@@ -22,9 +22,10 @@ from dataclasses import asdict, dataclass
 from pathlib import Path
 from typing import Any
 
-from widen.bundle import Bundle, read_manifest, verify_folder
 from widen.clock import utc_stamp
 from widen.errors import BundleError, StoreBusy
+from widen.model.bundle import Bundle, read_manifest, verify_folder
+from widen.model.manifest import Manifest
 
 __all__ = ["Store", "BundleInfo"]
 
@@ -89,7 +90,7 @@ class Store:
             return []
         return sorted(p.name for p in self.bundles.iterdir() if (p / "manifest.json").is_file())
 
-    def manifest(self, version: str) -> dict[str, Any]:
+    def manifest(self, version: str) -> Manifest:
         return read_manifest(self.bundle_dir(version))
 
     def verify(self, version: str) -> list[str]:
@@ -125,25 +126,19 @@ class Store:
                 manifest = self.manifest(version)
             except BundleError:
                 continue
-            gate = manifest.get("gate") or {}
+            gate = manifest.gate
+            passed = gate is not None and gate.passed
             if version == current:
                 status = "current"
             elif version in ever_current:
                 status = "retired"
-            elif gate.get("passed"):
+            elif passed:
                 status = "candidate"
             else:
                 status = "rejected"
-            infos.append(
-                BundleInfo(
-                    version,
-                    status,
-                    str(manifest.get("created_at", "")),
-                    gate.get("score"),
-                    bool(gate.get("passed")),
-                    bool(gate.get("forced")),
-                )
-            )
+            score = gate.score if gate is not None else None
+            forced = gate is not None and gate.forced
+            infos.append(BundleInfo(version, status, manifest.created_at, score, passed, forced))
         return infos
 
     def rollback_target(self) -> str | None:

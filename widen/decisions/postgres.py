@@ -23,7 +23,8 @@ from contextlib import contextmanager
 from typing import Any
 
 from widen.clock import utc_stamp
-from widen.decisions import MAX_ID, Checked, Decision, DecisionSet, DecisionStore
+from widen.decisions.backend import Checked, DecisionStore
+from widen.decisions.decision import MAX_ID, Decision, DecisionSet
 from widen.errors import DecisionError, DecisionMissing, DecisionsUnavailable, DecisionWithdrawn
 
 __all__ = ["PostgresDecisionStore", "MIGRATIONS", "masked_url", "CHANNEL"]

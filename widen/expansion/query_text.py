@@ -21,9 +21,9 @@ from __future__ import annotations
 from collections.abc import Mapping, Sequence
 from functools import lru_cache
 
-from widen.options import ExpansionOptions
-from widen.result import Clause, ExpansionResult, Segment
-from widen.text import key_of
+from widen.expansion.options import ExpansionOptions
+from widen.expansion.result import Clause, ExpansionResult, Segment
+from widen.text.forms import key_of_phrase
 
 __all__ = [
     "render",
@@ -89,7 +89,7 @@ def render(
         terms = []
         for c in group:
             if field:
-                written = (names or {}).get(key_of(c.phrase), (segment.field, c.phrase))[1]
+                written = (names or {}).get(key_of_phrase(c.phrase), (segment.field, c.phrase))[1]
                 terms.append(f"{field}:{_quote(written)}^{_number(c.weight)}")
             else:
                 terms.append(f"{_quote(c.phrase)}^{_number(c.weight)}")

@@ -8,13 +8,15 @@ through `with_request`; the service's environment may override only `max_tokens`
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from typing import Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field
+from pydantic import BaseModel, ConfigDict, Field, PrivateAttr
 
-from widen.phrases import CONNECTOR_WORDS
+from widen.model.manifest import Manifest
+from widen.model.phrases import CONNECTOR_WORDS
 
-__all__ = ["ExpansionOptions", "DEFAULT_MODIFIERS", "DEFAULT_NOISE_WORDS", "DEFAULT_PATTERNS"]
+__all__ = ["ExpansionOptions", "DEFAULT_MODIFIERS", "DEFAULT_NOISE_WORDS", "DEFAULT_PATTERNS", "options_of"]
 
 #: Words that qualify a job without changing it; a segment made only of them is never required.
 DEFAULT_MODIFIERS = ["senior", "junior", "trainee", "relief", "bank", "lead"]
@@ -57,9 +59,13 @@ DEFAULT_PATTERNS = {
 
 
 class ExpansionOptions(BaseModel):
-    """Every expansion option with its default; `widen train --print-config` shows them as `[expansion]`."""
+    """Every expansion option with its default; `widen train --print-config` shows them as `[expansion]`.
+
+    Frozen and hashable: equal options are one key of the expansion cache, whichever object holds them
+    (the hash is of the options' JSON, worked out once per object)."""
 
     model_config = ConfigDict(extra="forbid", frozen=True)
+    _key: str | None = PrivateAttr(default=None)
 
     max_per_segment: int = Field(default=5, ge=0, le=50, description="expansions kept for one segment")
     max_clauses: int = Field(default=12, ge=1, le=200, description="clauses in the whole query_text")
@@ -140,6 +146,27 @@ class ExpansionOptions(BaseModel):
             return self
         return ExpansionOptions.model_validate({**self.model_dump(), **update})
 
+    def cache_key(self) -> str:
+        """The options as JSON, worked out once per object: equal options, equal keys."""
+        private = self.__pydantic_private__  # a slot: reading it is cheap, unlike a private attribute
+        assert private is not None
+        key: str | None = private.get("_key")
+        if key is None:
+            key = private["_key"] = self.model_dump_json()
+        return key
+
+    def __hash__(self) -> int:
+        return hash(self.cache_key())
+
+    def __eq__(self, other: object) -> bool:
+        return self is other or (isinstance(other, ExpansionOptions) and self.cache_key() == other.cache_key())
+
+    def model_copy(self, *, update: Mapping[str, Any] | None = None, deep: bool = False) -> ExpansionOptions:
+        copied = super().model_copy(update=update, deep=deep)
+        assert copied.__pydantic_private__ is not None
+        copied.__pydantic_private__["_key"] = None  # the copy's fields differ: its key is its own
+        return copied
+
     def apart_quantile(self) -> float:
         """The quantile of different jobs' cosines a neighbour with no duties profile must pass."""
         return max(0.0, 1.0 - self.chance_neighbours / self.candidates)
@@ -151,3 +178,9 @@ class ExpansionOptions(BaseModel):
     def not_inside_phrases(self) -> frozenset[str]:
         """Words no mined phrase may join to others: pattern words and noise words, connectors aside."""
         return (self.pattern_words() | frozenset(self.noise_words)) - frozenset(CONNECTOR_WORDS)
+
+
+def options_of(manifest: Manifest) -> ExpansionOptions:
+    """The expansion options a bundle was trained and gated with (the defaults for a bundle without)."""
+    saved = manifest.config.get("expansion")
+    return ExpansionOptions.model_validate(saved) if saved else ExpansionOptions()

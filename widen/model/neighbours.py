@@ -1,7 +1,7 @@
 """Exact cosine nearest neighbours for every vocabulary entry, in blocks.
 
 The table (`top_k_table`) computes the upper triangle of `V @ V.T` tile by tile and streams each
-tile through a compiled top-k keeper (`widen.neighbour_kernel`, numba; imported only when a table
+tile through a compiled top-k keeper (`widen.model.neighbour_kernel`, numba; imported only when a table
 is built, so the service never loads it). Extra memory: a tile a thread and one threshold a row.
 One query vector (`top_k_for_vector`) and small row sets (`top_k_rows`) are picked with numpy.
 """
@@ -72,13 +72,13 @@ def top_k_table(
     by similarity descending, then index ascending.
 
     The product is symmetric, so only its upper triangle is computed, as tiles of `block_rows`
-    square, each offered to the rows and the columns it holds (`widen.neighbour_kernel`): half the
+    square, each offered to the rows and the columns it holds (`widen.model.neighbour_kernel`): half the
     arithmetic of `V @ V.T`. The tiles run in rounds in which no two share a block of rows (the
     circle method of a round-robin schedule), one thread a tile with BLAS on one thread."""
     from numba import get_num_threads
     from threadpoolctl import threadpool_limits
 
-    from widen.neighbour_kernel import NO_ENTRY, sort_heaps, take_tiles
+    from widen.model.neighbour_kernel import NO_ENTRY, sort_heaps, take_tiles
 
     vocab = normed.shape[0]
     k = min(k, max(vocab - 1, 0))
@@ -136,7 +136,7 @@ def _floors(normed: Matrix, k: int) -> Matrix:
     floor = np.full(vocab, -np.inf, dtype=np.float32)
     if sample * 2 > vocab:
         return floor
-    from widen.neighbour_kernel import nth_largest
+    from widen.model.neighbour_kernel import nth_largest
 
     columns = np.arange(sample) * (vocab // sample)
     against = np.ascontiguousarray(normed[columns].T)

@@ -5,7 +5,7 @@ the output arrays themselves, so the table needs no memory beyond its outputs, a
 and a threshold a row. "Worse" is lower similarity, and at equal similarity the higher index:
 the order a full sort by similarity descending, then index ascending, gives; with that order
 the heaps keep the exact top k whatever order the similarities arrive in. A row's bar is the
-larger of its `floor` (a first guess, see `widen.neighbours._floors`) and its heap's worst;
+larger of its `floor` (a first guess, see `widen.model.neighbours._floors`) and its heap's worst;
 almost every similarity is below the bar and is rejected by one vectorised test per run of
 columns, so a heap is touched a few dozen times a row, not once per entry.
 

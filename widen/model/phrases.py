@@ -15,7 +15,7 @@ from typing import Any, Literal
 
 from gensim.models.phrases import FrozenPhrases, npmi_scorer, original_scorer
 
-from widen.text import PHRASE_JOINER
+from widen.text.forms import PHRASE_JOINER
 
 __all__ = ["CONNECTOR_WORDS", "PhraseRow", "Phraser", "Scoring"]
 

@@ -2,10 +2,10 @@
 
 from __future__ import annotations
 
-from widen.decisions import DecisionStore
+from widen.decisions.backend import DecisionStore
+from widen.decisions.sqlite import SqliteDecisionStore
 from widen.errors import BadInput
-from widen.sqlite_decisions import SqliteDecisionStore
-from widen.store import Store
+from widen.model.store import Store
 
 __all__ = ["open_decision_store"]
 
@@ -16,7 +16,7 @@ def open_decision_store(store: Store, url: str | None = None) -> DecisionStore:
     if not url:
         return SqliteDecisionStore(store.decisions_path)
     if url.startswith(("postgresql://", "postgres://")):
-        from widen.postgres_decisions import PostgresDecisionStore
+        from widen.decisions.postgres import PostgresDecisionStore
 
         return PostgresDecisionStore(url)
     raise BadInput("the decisions database must be a postgresql:// URL (or unset for the store's own SQLite)")

@@ -12,7 +12,7 @@ bundles/VERSION/       one published bundle, never changed after publication
   protected.json       place and employer names (with their field and spelling), never expanded nor offered
   duty_rows.npy / duty_index.npy / duty_similarity.npy   titles with the most alike duties (optional)
 
-The store around the bundles (CURRENT, the journal, decisions, search indexes) is `widen.store`.
+The store around the bundles (CURRENT, the journal, decisions, search indexes) is `widen.model.store`.
 """
 
 from __future__ import annotations
@@ -21,20 +21,18 @@ import hashlib
 import json
 from collections.abc import Iterable, Mapping
 from pathlib import Path
-from typing import Any
 
 import numpy as np
 import numpy.typing as npt
 from gensim.models import KeyedVectors
+from pydantic import ValidationError
 
 from widen.errors import BundleError
-from widen.options import ExpansionOptions
-from widen.phrases import Phraser, PhraseRow
-from widen.text import display
+from widen.model.manifest import FORMAT_VERSION, Manifest
+from widen.model.phrases import Phraser, PhraseRow
+from widen.text.forms import phrase_of_key
 
 __all__ = ["FORMAT_VERSION", "Bundle", "BundleWriter", "read_manifest", "verify_folder", "sha256_file"]
-
-FORMAT_VERSION = 1
 
 MANIFEST = "manifest.json"
 VECTORS = "vectors.kv"
@@ -60,7 +58,8 @@ def sha256_file(path: Path, chunk: int = 1 << 20) -> str:
     return digest.hexdigest()
 
 
-def read_manifest(folder: Path) -> dict[str, Any]:
+def read_manifest(folder: Path) -> Manifest:
+    """The bundle's manifest, checked against its model; BundleError saying what is wrong."""
     path = folder / MANIFEST
     try:
         data = json.loads(path.read_text(encoding="utf-8"))
@@ -70,7 +69,16 @@ def read_manifest(folder: Path) -> dict[str, Any]:
         raise BundleError(f"bundle {folder.name}: manifest.json is not valid JSON") from exc
     if not isinstance(data, dict):
         raise BundleError(f"bundle {folder.name}: manifest.json is not an object")
-    return data
+    if data.get("format_version") != FORMAT_VERSION:
+        raise BundleError(
+            f"bundle {folder.name}: format_version {data.get('format_version')!r} is not {FORMAT_VERSION}"
+        )
+    try:
+        return Manifest.model_validate(data)
+    except ValidationError as exc:
+        first = exc.errors()[0]
+        where = ".".join(str(p) for p in first["loc"])
+        raise BundleError(f"bundle {folder.name}: manifest.json: '{where}': {first['msg']}") from exc
 
 
 def verify_folder(folder: Path) -> list[str]:
@@ -80,10 +88,8 @@ def verify_folder(folder: Path) -> list[str]:
         manifest = read_manifest(folder)
     except BundleError as exc:
         return [str(exc)]
-    if manifest.get("format_version") != FORMAT_VERSION:
-        return [f"bundle {version}: format_version {manifest.get('format_version')!r} is not {FORMAT_VERSION}"]
     problems = []
-    files = manifest.get("files") or {}
+    files = manifest.files
     problems += [f"bundle {version}: manifest lists no {name}" for name in REQUIRED if name not in files]
     for name, expected in files.items():
         path = folder / name
@@ -97,8 +103,8 @@ def verify_folder(folder: Path) -> list[str]:
 class BundleWriter:
     """Writes every file of a new bundle into `folder`, then the manifest, once, with their sha256.
 
-    Until `finish`, `draft(fields)` gives a manifest to open the unfinished bundle with (the gate
-    judges the candidate through the same reader the service uses).
+    Until `finish`, the unfinished bundle opens with its draft manifest (the gate judges the
+    candidate through the same reader the service uses).
     """
 
     def __init__(self, folder: Path) -> None:
@@ -123,7 +129,7 @@ class BundleWriter:
         with (self.folder / PHRASE_TABLE).open("w", encoding="utf-8") as fh:
             fh.write("phrase\tscore\tcount\tpass\n")
             for row in sorted(table, key=lambda r: (-r.count, r.phrase)):
-                fh.write(f"{display(row.phrase)}\t{row.score:.6f}\t{row.count}\t{row.pass_number}\n")
+                fh.write(f"{phrase_of_key(row.phrase)}\t{row.score:.6f}\t{row.count}\t{row.pass_number}\n")
 
     def protected(self, fields: list[str], names: Mapping[str, tuple[str, str]]) -> None:
         """Place and employer names: key -> (the dump's field, the name as the dump writes it)."""
@@ -136,20 +142,15 @@ class BundleWriter:
         np.save(self.folder / DUTY_INDEX, np.asarray(index, dtype=np.int32))
         np.save(self.folder / DUTY_SIMILARITY, np.asarray(similarity, dtype=np.float32))
 
-    def draft(self, fields: dict[str, Any]) -> dict[str, Any]:
-        """The manifest as it would be, without the file list; nothing is written."""
-        return {"format_version": FORMAT_VERSION, **fields}
-
-    def finish(self, fields: dict[str, Any]) -> dict[str, Any]:
-        """Write manifest.json: the fields, the format version and the sha256 of every other file."""
+    def finish(self, draft: Manifest) -> Manifest:
+        """Write manifest.json: the draft with the sha256 of every other file; the manifest written."""
         files = {
             p.relative_to(self.folder).as_posix(): sha256_file(p)
             for p in sorted(self.folder.rglob("*"))
             if p.is_file() and p.name != MANIFEST
         }
-        manifest = {**self.draft(fields), "files": files}
-        text = json.dumps(manifest, indent=2, sort_keys=False) + "\n"
-        (self.folder / MANIFEST).write_text(text, encoding="utf-8")
+        manifest = draft.model_copy(update={"files": files})
+        (self.folder / MANIFEST).write_text(manifest.to_json(), encoding="utf-8")
         return manifest
 
 
@@ -160,7 +161,7 @@ class Bundle:
     `manifest`, the draft manifest of a bundle still being written (then nothing is verified).
     """
 
-    def __init__(self, folder: Path, verify: bool = True, manifest: dict[str, Any] | None = None) -> None:
+    def __init__(self, folder: Path, verify: bool = True, manifest: Manifest | None = None) -> None:
         self.folder = Path(folder)
         version = self.folder.name
         if manifest is None and verify:
@@ -168,8 +169,8 @@ class Bundle:
             if problems:
                 raise BundleError("; ".join(problems))
         self.manifest = manifest if manifest is not None else read_manifest(self.folder)
-        self.version: str = self.manifest["version"]
-        self.created_at: str = self.manifest["created_at"]
+        self.version: str = self.manifest.version
+        self.created_at: str = self.manifest.created_at
         try:
             self.vectors = KeyedVectors.load(str(self.folder / VECTORS), mmap="r")
             self.normed_vectors: npt.NDArray[np.float32] = np.load(self.folder / NORMED_VECTORS, mmap_mode="r")
@@ -197,12 +198,6 @@ class Bundle:
         self.index: dict[str, int] = dict(self.vectors.key_to_index)
 
     @property
-    def options(self) -> ExpansionOptions:
-        """The expansion options the bundle was trained and gated with (defaults for older bundles)."""
-        saved = (self.manifest.get("config") or {}).get("expansion")
-        return ExpansionOptions.model_validate(saved) if saved else ExpansionOptions()
-
-    @property
     def max_words(self) -> int:
         """The longest phrase the bundle's phrase passes form."""
-        return int((self.manifest.get("config") or {}).get("phrases", {}).get("max_words", 3))
+        return self.manifest.max_words

@@ -14,7 +14,8 @@ from pathlib import Path
 from typing import Any
 
 from widen.clock import utc_stamp
-from widen.decisions import MAX_ID, Checked, Decision, DecisionSet, DecisionStore
+from widen.decisions.backend import Checked, DecisionStore
+from widen.decisions.decision import MAX_ID, Decision, DecisionSet
 from widen.errors import DecisionError, DecisionMissing, DecisionWithdrawn
 
 __all__ = ["SqliteDecisionStore", "SCHEMA_VERSION"]

@@ -1,0 +1,241 @@
+"""What expansion works out once per bundle and keeps: one object, with typed keys, beside the lexicon.
+
+Two kinds of thing are kept, each in its own bounded table:
+
+- *derived data*, always kept: segmentation's vocabulary and the pattern spellings per set of
+  options, each entry's facts and duties neighbours, the different-jobs cosine per quantile, the
+  spelling index. Working them out again gives the same values; keeping them only saves time.
+- *answers*, kept unless `keep_answers` is False: a known entry's candidates, what the bundle and
+  the options alone decide of each (`Decided`), a known entry's whole expansion when nothing in the
+  query or the decisions can change it, and the whole answer to an entry typed alone. With
+  `keep_answers=False` every call works these out again: the reference the tests compare the
+  kept answers with, byte for byte.
+
+Keys are named tuples of what a value depends on; options are hashable (`ExpansionOptions`), so
+equal options are one key whichever object holds them. The cache belongs to one lexicon.
+"""
+
+from __future__ import annotations
+
+import threading
+from collections.abc import Callable, Hashable
+from typing import TYPE_CHECKING, Any, Generic, NamedTuple, TypeVar
+
+from widen.expansion.lexicon import EntryFacts, Lexicon
+from widen.expansion.options import ExpansionOptions
+from widen.expansion.segment import Vocabulary
+from widen.expansion.spelling import Speller, no_correction
+
+if TYPE_CHECKING:
+    from widen.expansion.candidates import Candidate
+    from widen.expansion.filters import Decided
+    from widen.expansion.result import Clause, Dropped, Expansion, ModelInfo, Segment
+
+__all__ = [
+    "ExpansionCache",
+    "Answer",
+    "AloneKey",
+    "CandidatesKey",
+    "DecidedKey",
+    "EntryKey",
+    "SidesKey",
+    "SpanKey",
+    "SpanOutcome",
+]
+
+K = TypeVar("K", bound=Hashable)
+V = TypeVar("V")
+
+
+class CandidatesKey(NamedTuple):
+    entry: int
+    candidates: int
+
+
+class DecidedKey(NamedTuple):
+    entry: int
+    options: ExpansionOptions
+
+
+class SpanKey(NamedTuple):
+    entry: int
+    options: ExpansionOptions
+    explain: bool
+
+
+class AloneKey(NamedTuple):
+    entry: int
+    options: ExpansionOptions
+
+
+class SidesKey(NamedTuple):
+    pattern: str
+    typed: str
+    options: ExpansionOptions
+
+
+class EntryKey(NamedTuple):
+    entry: int
+    stop: frozenset[str]
+    title_share: float
+
+
+class _VocabularyKey(NamedTuple):
+    noise_words: tuple[str, ...]
+    modifiers: tuple[str, ...]
+    patterns: tuple[tuple[str, tuple[str, ...]], ...]
+    spelling: bool
+
+
+class SpanOutcome(NamedTuple):
+    """A job span's expansions (its correction aside) and, when explained, its drops with reasons."""
+
+    kept: tuple[Expansion, ...]
+    dropped: tuple[Dropped, ...]
+
+
+class Answer(NamedTuple):
+    """The whole answer to a query, but the echoed query itself."""
+
+    segments: list[Segment]
+    clauses: list[Clause]
+    query_text: str
+    full_query: str
+
+
+class _Table(Generic[K, V]):
+    """A dict that stops growing at `limit` (a bound no real vocabulary reaches), and keeps nothing when
+    it is off."""
+
+    def __init__(self, limit: int, on: bool = True) -> None:
+        self.limit, self.on = limit, on
+        self.items: dict[K, V] = {}
+
+    def get(self, key: K) -> V | None:
+        return self.items.get(key)
+
+    def keep(self, key: K, value: V) -> V:
+        if self.on and len(self.items) < self.limit:
+            self.items[key] = value
+        return value
+
+    def drop(self, key: K) -> None:
+        self.items.pop(key, None)
+
+    def __len__(self) -> int:
+        return len(self.items)
+
+
+class ExpansionCache:
+    """What expansion keeps for one lexicon. Parameters: `lexicon`; `keep_answers` (see the module)."""
+
+    def __init__(self, lexicon: Lexicon, keep_answers: bool = True) -> None:
+        self.lexicon = lexicon
+        self.version = lexicon.version
+        self.keep_answers = keep_answers
+        self.candidates: _Table[CandidatesKey, tuple[Candidate, ...]] = _Table(2_000_000, keep_answers)
+        self.decided: _Table[DecidedKey, tuple[Decided, ...]] = _Table(2_000_000, keep_answers)
+        self.spans: _Table[SpanKey, SpanOutcome] = _Table(2_000_000, keep_answers)
+        self.alone: _Table[AloneKey, Answer] = _Table(2_000_000, keep_answers)
+        self.sides: _Table[SidesKey, tuple[Expansion, ...]] = _Table(100_000, keep_answers)
+        self._models: _Table[str, ModelInfo] = _Table(1, keep_answers)
+        self._entries: _Table[EntryKey, EntryFacts] = _Table(1_000_000)
+        self._duties: _Table[int, dict[int, float]] = _Table(1_000_000)
+        self._apart: _Table[tuple[float, float], float | None] = _Table(1024)
+        self._vocabularies: _Table[_VocabularyKey, Vocabulary] = _Table(1024)
+        self._vocabulary_of: _Table[ExpansionOptions, Vocabulary] = _Table(1024)
+        self._spellings: _Table[tuple[str, _VocabularyKey], tuple[str, ...]] = _Table(100_000)
+        self._speller: Speller | None = None
+        self._lock = threading.Lock()
+
+    def forget_answers(self) -> None:
+        """Let go of every answer kept (the derived data stays): a worker's state before its first query."""
+        for table in (self.candidates, self.decided, self.spans, self.alone, self.sides, self._models):
+            table.items.clear()
+
+    def answers(self) -> int:
+        """How many answers are kept (all tables of answers together)."""
+        return len(self.candidates) + len(self.decided) + len(self.spans) + len(self.alone) + len(self.sides)
+
+    def _derived(self, table: _Table[K, V], key: K, make: Callable[[], V]) -> V:
+        found = table.get(key)
+        if found is None:
+            found = table.keep(key, make())
+        return found
+
+    # -- derived data, always kept ---------------------------------------------------------------
+
+    def entry(self, j: int, stop: frozenset[str], title_share: float) -> EntryFacts:
+        return self._derived(
+            self._entries, EntryKey(j, stop, title_share), lambda: self.lexicon.entry_facts(j, stop, title_share)
+        )
+
+    def duty_neighbours(self, j: int) -> dict[int, float]:
+        """The titles whose duties are most alike entry j's (callers must not change the dict)."""
+        return self._derived(self._duties, j, lambda: self.lexicon.duty_neighbours(j))
+
+    def different_jobs_cosine(self, options: ExpansionOptions) -> float | None:
+        """`Lexicon.different_jobs_cosine` at the options' quantile, worked out once per quantile."""
+        quantile, related = options.apart_quantile(), options.related_duties
+        key = (quantile, related)
+        if key not in self._apart.items:
+            self._apart.keep(key, self.lexicon.different_jobs_cosine(quantile, related))
+        return self._apart.items[key]
+
+    def speller(self) -> Speller:
+        if self._speller is None:
+            with self._lock:
+                if self._speller is None:
+                    self._speller = Speller(self.lexicon)
+        return self._speller
+
+    def _correct(self, word: str) -> str | None:
+        return self.speller().correct(word)
+
+    @staticmethod
+    def _marker(options: ExpansionOptions) -> _VocabularyKey:
+        return _VocabularyKey(
+            options.noise_words, options.modifiers, tuple(sorted(options.patterns.items())), options.spelling
+        )
+
+    def vocabulary(self, options: ExpansionOptions) -> Vocabulary:
+        """Segmentation's view of the bundle under `options`, built once per set of options that differ
+        in what segmentation reads (noise words, modifiers, patterns, spelling)."""
+        found = self._vocabulary_of.get(options)
+        if found is not None:
+            return found
+        marker = self._marker(options)
+        found = self._vocabularies.get(marker)
+        if found is None:
+            with self._lock:
+                lex = self.lexicon
+                names = {k: field for k, (field, _) in lex.names.items()}
+                names.update({k: "protected" for k in lex.protected if k not in names})
+                found = self._vocabularies.keep(
+                    marker,
+                    Vocabulary(
+                        lex.index,
+                        names,
+                        frozenset(w for n in options.noise_words for w in n.split(" ")),
+                        frozenset(options.modifiers),
+                        lex.pattern_spellings(options),
+                        self._correct if options.spelling else no_correction,
+                    ),
+                )
+        return self._vocabulary_of.keep(options, found)
+
+    def used_spellings(self, pattern: str, options: ExpansionOptions) -> list[str]:
+        """The spellings of a pattern that the dump uses, most used first; once per pattern and options."""
+        key = (pattern, self._marker(options))
+        found = self._spellings.get(key)
+        if found is None:
+            made = self.lexicon.used_spellings(pattern, dict(self.vocabulary(options).spellings))
+            found = self._spellings.keep(key, tuple(made))
+        return list(found)
+
+    def model_info(self, make: Callable[[], Any]) -> Any:
+        """The bundle's model info: one object per bundle (results are never changed in place)."""
+        found = self._models.get(self.version)
+        if found is None:
+            found = self._models.keep(self.version, make())
+        return found

@@ -1,0 +1,56 @@
+"""Spelling correction of a word the bundle has never seen: the vocabulary word it most likely is."""
+
+from __future__ import annotations
+
+from collections import Counter
+
+import numpy as np
+import numpy.typing as npt
+from rapidfuzz import distance, process
+
+from widen.expansion.lexicon import Lexicon
+from widen.text.forms import PHRASE_JOINER
+
+__all__ = ["Speller", "no_correction"]
+
+
+def no_correction(word: str) -> None:
+    """What segmentation calls when spelling correction is off."""
+    return None
+
+
+def _distance_for(word: str) -> int:
+    """How far a correction may be: none for short words, one edit up to eight letters, two beyond
+    (common practice in spelling correction, no single source)."""
+    return 0 if len(word) < 5 else 1 if len(word) <= 8 else 2
+
+
+class Speller:
+    """Every word of the vocabulary and of the protected names, with its corpus count (a word's own
+    count plus the counts of the phrases it is in). Parameters: the lexicon it corrects towards."""
+
+    def __init__(self, lexicon: Lexicon) -> None:
+        counts: Counter[str] = Counter()
+        for key, n in zip(lexicon.keys, lexicon.counts.tolist(), strict=True):
+            for word in key.split(PHRASE_JOINER):
+                if word.isalpha() and len(word) >= 3:
+                    counts[word] += n
+        for key in lexicon.protected:
+            for word in key.split(PHRASE_JOINER):
+                if word.isalpha() and len(word) >= 3:
+                    counts[word] += 1
+        self.words = sorted(counts)
+        self.counts: npt.NDArray[np.float64] = np.array([counts[w] for w in self.words], dtype=np.float64)
+
+    def correct(self, word: str) -> str | None:
+        """The vocabulary word a mistyped word most likely is: the fewest edits (optimal string
+        alignment: a swap of two letters is one edit), bounded by the word's length; among those,
+        the most frequent in the corpus. None for a known word, a short one, or when nothing is near."""
+        limit = _distance_for(word)
+        if limit == 0 or not word.isalpha():
+            return None
+        near = process.extract(word, self.words, scorer=distance.OSA.distance, score_cutoff=limit, limit=20)
+        if not near:
+            return None
+        best = min(near, key=lambda m: (m[1], -self.counts[m[2]], m[0]))
+        return None if best[0] == word else str(best[0])
