@@ -29,7 +29,7 @@ demo: $(BIN)/.installed $(DEMO)/postings.jsonl
 	$(BIN)/widen evaluate --store $(STORE) --postings $(DEMO)/open_postings.jsonl --queries $(DEMO)/queries.jsonl --truth $(DEMO)/truth.json --out build/eval
 	@echo "serving the demo store; Ctrl-C stops it"
 	@token=$$($(BIN)/python -c 'import secrets; print(secrets.token_urlsafe(12))'); \
-	  echo "review token for this demo run (the /debug page asks for it once): $$token"; \
+	  echo "review token for this demo run (the /review page asks for it once): $$token"; \
 	  WIDEN_REVIEW_TOKEN=$$token exec $(BIN)/widen serve --store $(STORE) --port $(PORT) --demo-index $(DEMO)/open_postings.jsonl
 
 CODE := widen training service tests demo_postings bench

@@ -27,6 +27,7 @@ import threading
 import time
 from collections.abc import Iterator
 from contextlib import contextmanager
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -141,6 +142,89 @@ def _publish(store: Path) -> str:
     return version
 
 
+class _Checker:
+    """Beside the load: asks one query again and again through the balancer and notes each answer's
+    bundle, or the failure, so a half-loaded or broken answer cannot hide in wrk's counts."""
+
+    def __init__(self, base: str) -> None:
+        self.base = base
+        self.seen: dict[str, int] = {}
+        self.broken: list[str] = []
+        self.stop = threading.Event()
+        self.thread = threading.Thread(target=self._run)
+
+    def _run(self) -> None:
+        while not self.stop.is_set():
+            try:
+                got = httpx.get(f"{self.base}/v1/expand", params={"q": "care assistant"}, timeout=10)
+                version = got.json()["model"]["version"]
+                self.seen[version] = self.seen.get(version, 0) + 1
+            except (httpx.HTTPError, ValueError, KeyError) as exc:
+                self.broken.append(type(exc).__name__)
+
+
+def _until_serving(port: int, version: str, name: str, seconds: float = 30.0) -> None:
+    deadline = time.monotonic() + seconds
+    while True:
+        try:
+            if httpx.get(f"http://127.0.0.1:{port}/v1/model", timeout=1).json()["version"] == version:
+                return
+        except (httpx.HTTPError, ValueError, KeyError):
+            pass
+        if time.monotonic() > deadline:
+            raise RuntimeError(f"replica {name} never served {version}")
+        time.sleep(0.1)
+
+
+@dataclass
+class _Drill:
+    """The running parts: the published store and its URL, the replicas and their ports, the balancer."""
+
+    published: Path
+    store_url: str
+    base: str
+    ports: dict[str, int]
+    work: Path
+    replicas: dict[str, subprocess.Popen[bytes]]
+
+    def disrupt(self, seconds: float, events: dict[str, Any]) -> None:
+        """Kill replica A, publish a new bundle, start A again, each a fifth of `seconds` apart."""
+        started = time.monotonic()
+        time.sleep(seconds * 0.2)
+        self.replicas["a"].send_signal(signal.SIGKILL)
+        events["killed_a_s"] = round(time.monotonic() - started, 2)
+        time.sleep(seconds * 0.2)
+        events["new_bundle"] = _publish(self.published)
+        events["published_s"] = round(time.monotonic() - started, 2)
+        time.sleep(seconds * 0.2)
+        self.replicas["a"] = _replica(self.store_url, self.ports["a"], self.work / "mirror-a")
+        events["restarted_a_s"] = round(time.monotonic() - started, 2)
+
+    def phases(self, seconds: float, paths: Path, old: str | None) -> dict[str, Any]:
+        """Before, during (the disruption) and after, each under wrk's load, with the checker beside it."""
+        results: dict[str, Any] = {}
+        checker = _Checker(self.base)
+        checker.thread.start()
+        results["before"] = _wrk(self.base, seconds, paths)
+        events: dict[str, Any] = {}
+        disrupter = threading.Thread(target=self.disrupt, args=(seconds, events))
+        disrupter.start()
+        during = _wrk(self.base, seconds * 1.5, paths)
+        disrupter.join()
+        results["during"] = {**during, **events}
+        new = str(events["new_bundle"])
+        for name, port in self.ports.items():
+            _until_serving(port, new, name)
+        results["after"] = _wrk(self.base, seconds, paths)
+        checker.stop.set()
+        checker.thread.join(timeout=30)
+        results["answers_by_bundle"] = checker.seen
+        results["bundles"] = {"old": old, "new": new}
+        others = sum(n for v, n in checker.seen.items() if v not in (old, new))
+        results["half_loaded_or_broken_answers"] = len(checker.broken) + others
+        return results
+
+
 def run_drill(store: Path, demo: Path, work: Path, seconds: float = 10.0) -> dict[str, Any]:
     """The drill on a copy of `store`; `seconds` per phase."""
     nginx = shutil.which("nginx") or "/usr/sbin/nginx"
@@ -153,7 +237,6 @@ def run_drill(store: Path, demo: Path, work: Path, seconds: float = 10.0) -> dic
     static_port, a_port, b_port, lb_port = (free_port() for _ in range(4))
     root = Path(tempfile.mkdtemp(prefix="widen-drill-nginx-"))
     (root / "nginx.conf").write_text(_NGINX.format(root=root, a=a_port, b=b_port, port=lb_port), encoding="utf-8")
-    base = f"http://127.0.0.1:{lb_port}"
     store_url = f"http://127.0.0.1:{static_port}"
     static = [
         sys.executable,
@@ -172,72 +255,18 @@ def run_drill(store: Path, demo: Path, work: Path, seconds: float = 10.0) -> dic
             "a": _replica(store_url, a_port, work / "mirror-a"),
             "b": _replica(store_url, b_port, work / "mirror-b"),
         }
+        drill = _Drill(published, store_url, f"http://127.0.0.1:{lb_port}", {"a": a_port, "b": b_port}, work, replicas)
         try:
             for port in (a_port, b_port):
                 _wait(f"http://127.0.0.1:{port}/readyz")
             with _running([nginx, "-c", str(root / "nginx.conf"), "-g", "daemon off;"]):
-                _wait(f"{base}/healthz")
-                seen: dict[str, int] = {}
-                broken: list[str] = []
-                stop = threading.Event()
-
-                def check() -> None:  # whole JSON from one of the two bundles, or a failure noted
-                    while not stop.is_set():
-                        try:
-                            got = httpx.get(f"{base}/v1/expand", params={"q": "care assistant"}, timeout=10)
-                            version = got.json()["model"]["version"]
-                            seen[version] = seen.get(version, 0) + 1
-                        except (httpx.HTTPError, ValueError, KeyError) as exc:
-                            broken.append(type(exc).__name__)
-
-                checker = threading.Thread(target=check)
-                checker.start()
-                results["before"] = _wrk(base, seconds, paths)
-                during: dict[str, Any] = {}
-                events: dict[str, Any] = {}
-
-                def disrupt() -> None:
-                    started = time.monotonic()
-                    time.sleep(seconds * 0.2)
-                    replicas["a"].send_signal(signal.SIGKILL)
-                    events["killed_a_s"] = round(time.monotonic() - started, 2)
-                    time.sleep(seconds * 0.2)
-                    events["new_bundle"] = _publish(published)
-                    events["published_s"] = round(time.monotonic() - started, 2)
-                    time.sleep(seconds * 0.2)
-                    replicas["a"] = _replica(store_url, a_port, work / "mirror-a")
-                    events["restarted_a_s"] = round(time.monotonic() - started, 2)
-
-                disrupter = threading.Thread(target=disrupt)
-                disrupter.start()
-                during.update(_wrk(base, seconds * 1.5, paths))
-                disrupter.join()
-                results["during"] = {**during, **events}
-                new = str(events["new_bundle"])
-                for name, port in (("a", a_port), ("b", b_port)):
-                    deadline = time.monotonic() + 30
-                    while True:
-                        try:
-                            if httpx.get(f"http://127.0.0.1:{port}/v1/model", timeout=1).json()["version"] == new:
-                                break
-                        except (httpx.HTTPError, ValueError, KeyError):
-                            pass
-                        if time.monotonic() > deadline:
-                            raise RuntimeError(f"replica {name} never served {new}")
-                        time.sleep(0.1)
-                results["after"] = _wrk(base, seconds, paths)
-                stop.set()
-                checker.join(timeout=30)
-                results["answers_by_bundle"] = seen
-                results["bundles"] = {"old": old, "new": new}
-                results["half_loaded_or_broken_answers"] = len(broken) + sum(
-                    n for v, n in seen.items() if v not in (old, new)
-                )
+                _wait(f"{drill.base}/healthz")
+                results.update(drill.phases(seconds, paths, old))
         finally:
             log = root / "error.log"
             if log.exists():  # what nginx saw go wrong upstream (it retried those it could)
                 results["nginx_upstream_errors"] = [x for x in log.read_text().splitlines() if "upstream" in x][-8:]
-            for process in replicas.values():
+            for process in drill.replicas.values():
                 if process.poll() is None:
                     process.terminate()
                     process.wait(timeout=20)

@@ -2,7 +2,8 @@
 
 `create_app(settings, state)` composes the service in one visible place: one state object,
 one router per concern (expansion, decisions, operations, review, demo), the one error shape,
-and plain ASGI middleware. Tests build the app with their own settings and state.
+and plain ASGI middleware, one job each (`service.middleware`). Tests build the app with their
+own settings and state.
 """
 
 from __future__ import annotations
@@ -17,8 +18,11 @@ from contextlib import asynccontextmanager
 from fastapi import FastAPI
 from fastapi.middleware.cors import CORSMiddleware
 
-from service.edge import Edge, access_log
 from service.errors import install_error_handlers
+from service.middleware.access_record import AccessRecord, access_log
+from service.middleware.body_limit import BodyLimit
+from service.middleware.expand_shortcut import PATH, ExpandShortcut
+from service.middleware.request_id import RequestId
 from service.review.routes import router as review_router
 from service.routes import decisions, demo, expansion, operations
 from service.settings import Settings
@@ -59,7 +63,12 @@ def create_app(settings: Settings, state: ServiceState | None = None, watch: boo
             allow_headers=["Authorization", "Content-Type", "X-Request-ID"],
             expose_headers=["X-Request-ID"],
         )
-    app.add_middleware(Edge, state=state)  # type: ignore[arg-type]
+    # Outermost last: the request id, then the access record, the body limit, the GET shortcut.
+    expand_get = next(r for r in expansion.router.routes if getattr(r, "path", "") == PATH and "GET" in r.methods)  # type: ignore[attr-defined]
+    app.add_middleware(ExpandShortcut, state=state, route=expand_get)  # type: ignore[arg-type]
+    app.add_middleware(BodyLimit, limit=settings.max_body_bytes)  # type: ignore[arg-type]
+    app.add_middleware(AccessRecord, telemetry=state.telemetry, log=settings.access_log)  # type: ignore[arg-type]
+    app.add_middleware(RequestId)  # type: ignore[arg-type]
     return app
 
 

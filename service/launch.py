@@ -48,7 +48,7 @@ def serve(
     print(f"  OpenAPI       {base}/openapi.json  (browsable at {base}/docs)")
     print(f"  health        {base}/healthz  {base}/readyz  {base}/metrics")
     mode = "decisions need WIDEN_REVIEW_TOKEN" if settings.review_token is None else "review token set"
-    print(f"  review        {base}/debug?q=lorry+driver  ({mode})")
+    print(f"  review        {base}/review?q=lorry+driver  ({mode})")
     if settings.demo_index is not None:
         print(f"  demo search   {base}/demo")
     sys.stdout.flush()

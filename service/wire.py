@@ -11,6 +11,7 @@ from widen.expansion.result import ExpansionResult
 
 __all__ = [
     "RequestOptions",
+    "asked_of",
     "ExpandRequest",
     "BatchRequest",
     "BatchResponse",
@@ -25,9 +26,10 @@ __all__ = [
 
 
 class RequestOptions(BaseModel):
-    """What one request may ask of the expansion; anything left out takes the served options."""
+    """What one request may ask of the expansion; anything left out takes the served options. Frozen,
+    so equal asks are one key of the response cache."""
 
-    model_config = ConfigDict(extra="forbid", strict=True)
+    model_config = ConfigDict(extra="forbid", strict=True, frozen=True)
 
     max: int | None = Field(default=None, ge=1, le=50, description="at most this many expansions a segment")
     min_similarity: float | None = Field(default=None, ge=0.0, le=1.0)
@@ -43,11 +45,19 @@ class RequestOptions(BaseModel):
 
 
 class ExpandRequest(RequestOptions):
-    query: str = Field(min_length=1, max_length=256, description="the seeker's query, as typed")
+    query: str = Field(
+        min_length=1,
+        description="the seeker's query, as typed (at most WIDEN_MAX_QUERY_CHARS characters, 256 by default)",
+    )
 
 
 class BatchRequest(RequestOptions):
     queries: list[str] = Field(min_length=1, max_length=100)
+
+
+def asked_of(body: RequestOptions) -> RequestOptions:
+    """What a request body asks of the options alone (a POST's query and a batch's queries left out)."""
+    return RequestOptions.model_construct(**{name: getattr(body, name) for name in RequestOptions.model_fields})
 
 
 class BatchResponse(BaseModel):

@@ -12,7 +12,7 @@ from pathlib import Path
 import pytest
 
 from demo_postings.generate import generate
-from tests.helpers import SMALL_POSTINGS, demo_config, train_quietly
+from tests.helpers import SMALL_POSTINGS, Opened, demo_config, open_store, train_quietly
 from tests.postgres_server import PostgresServer, postgres_server
 
 
@@ -48,6 +48,12 @@ def trained_store(demo_dir: Path, tmp_path_factory: pytest.TempPathFactory) -> P
     outcome = train_quietly(demo_dir / "postings.jsonl", store, demo_config(demo_dir))
     assert outcome.promoted, outcome.gate.reasons
     return store
+
+
+@pytest.fixture(scope="session")
+def demo(trained_store: Path) -> Opened:
+    """The trained store's bundle opened as the service opens it (its lexicon and what is kept of it)."""
+    return open_store(trained_store)
 
 
 @pytest.fixture

@@ -9,7 +9,8 @@ import io
 import json
 import os
 import shutil
-from collections.abc import Sequence
+import time
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -25,6 +26,7 @@ from widen.expansion.result import ExpansionResult
 from widen.model.store import Store
 
 __all__ = [
+    "BROKEN",
     "HOSTILE",
     "IN_CI",
     "NONE",
@@ -35,10 +37,13 @@ __all__ = [
     "open_store",
     "republish",
     "train_quietly",
+    "until",
     "write_jsonl",
 ]
 
 SMALL_POSTINGS = 8000
+#: Config overrides that train a much worse model (one epoch, almost no learning, no duties profiles).
+BROKEN = {"embedding.epochs": 1, "embedding.alpha": 1e-6, "embedding.seed": 99, "duties.min_postings": 10**9}
 #: Strings a seeker, an employer or a reviewer could send that must reach a page as text only.
 HOSTILE = [
     "<script>alert('x')</script>",
@@ -144,3 +149,12 @@ def decided() -> DecisionSet:
             Decision(4, "chef", None, "exempt", None, "ana", None, at),
         ],
     )
+
+
+def until(done: Callable[[], bool], what: str, seconds: float = 15.0, every: float = 0.02) -> None:
+    """Poll `done` until it holds; fail with `what` once `seconds` have passed (a deadline for a test
+    that would otherwise hang, never a timing the test asserts)."""
+    deadline = time.monotonic() + seconds
+    while not done():
+        assert time.monotonic() < deadline, what
+        time.sleep(every)

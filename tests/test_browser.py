@@ -77,11 +77,11 @@ def _served(store: Path, demo_dir: Path, workers: int = 1) -> Any:
 
 
 def _sign_in(page: Any, base: str) -> None:
-    page.goto(f"{base}/debug")
+    page.goto(f"{base}/review")
     page.get_by_role("link", name="Give the review token to change decisions").click()
     page.get_by_label("Review token").fill(TOKEN)
     page.get_by_role("button", name="Start reviewing").click()
-    page.wait_for_url(f"{base}/debug")
+    page.wait_for_url(f"{base}/review")
 
 
 def _dismiss(dialog: Any, seen: list[str]) -> None:
@@ -123,7 +123,7 @@ def test_review_block_restart_and_compare(browser: Any, review_store: Path, demo
     # A restart: the decision is still in force, and the page still shows it.
     with _served(review_store, demo_dir) as server:
         assert victim not in _neighbours(server.base, "lorry driver")
-        page.goto(f"{server.base}/debug?" + urlencode({"q": "lorry driver"}))
+        page.goto(f"{server.base}/review?" + urlencode({"q": "lorry driver"}))
         assert page.get_by_role("button", name="Withdraw decision 1").is_visible()
         # Compare with the other bundle of the store.
         other = next(v for v in Store(review_store).versions() if v != Store(review_store).current_version())
@@ -174,7 +174,7 @@ def _unnamed_controls(page: Any) -> list[str]:
     return bad
 
 
-@pytest.mark.parametrize("path", ["/debug?q=section+chef+copperwick", "/debug/decisions?state=all", "/debug/access"])
+@pytest.mark.parametrize("path", ["/review?q=section+chef+copperwick", "/review/decisions?state=all", "/review/access"])
 def test_every_control_is_named_and_reachable_by_keyboard(
     browser: Any, review_store: Path, demo_dir: Path, path: str
 ) -> None:
@@ -214,12 +214,12 @@ def test_hostile_strings_do_not_run_or_break_the_page(browser: Any, review_store
             )
             assert made.status_code == 201, made.text
         for hostile in HOSTILE:
-            for url in (f"/debug?{urlencode({'q': hostile})}", "/debug/decisions?state=all", "/debug?q=staff+nurse"):
+            for url in (f"/review?{urlencode({'q': hostile})}", "/review/decisions?state=all", "/review?q=staff+nurse"):
                 page.goto(server.base + url)
                 assert page.locator("script, img, iframe, object, embed").count() == 0
                 assert page.get_by_role("heading", level=1).inner_text() in ("Phrase review", "Decisions")
                 assert page.get_by_role("link", name="Decisions", exact=True).is_visible()
-            page.goto(f"{server.base}/debug?{urlencode({'q': hostile})}")
+            page.goto(f"{server.base}/review?{urlencode({'q': hostile})}")
             assert page.get_by_label("Phrase or query").input_value() == hostile.replace("\r", "")
     assert dialogs == []
     context.close()

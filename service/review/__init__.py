@@ -1,1 +1,1 @@
-"""The review page at /debug (`routes`), what it shows (`views`) and who may change decisions (`access`)."""
+"""The review page at /review (`routes`), what it shows (`views`) and who may change decisions (`access`)."""

@@ -1,4 +1,4 @@
-"""The review page at /debug: what widen does with a phrase and why, and the reviewers' decisions.
+"""The review page at /review: what widen does with a phrase and why, and the reviewers' decisions.
 
 Server-rendered with Jinja2 (autoescaping on), no script at all: every control is a plain
 form, and the Content-Security-Policy of these pages forbids scripts outright, so a hostile
@@ -15,16 +15,15 @@ from __future__ import annotations
 
 import math
 from dataclasses import replace
-from pathlib import Path
 from typing import Any
-from urllib.parse import parse_qs, quote, unquote, urlencode
+from urllib.parse import quote, urlencode
 
 from fastapi import APIRouter, Query, Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
-from jinja2 import Environment, FileSystemLoader, select_autoescape
 from starlette.concurrency import run_in_threadpool
 
-from service.review.access import REVIEWER_COOKIE, SESSION_COOKIE, ReviewAccess
+from service.review.access import REVIEWER_COOKIE, SESSION_COOKIE
+from service.review.pages import CSS, READ_ONLY_FOR_NOW, access_of, listed_decisions, page, read_form, refused
 from service.review.views import compare_view, phrase_view
 from service.routes import State
 from service.state import ServiceState
@@ -35,77 +34,7 @@ from widen.expansion.query_text import baseline_text
 
 __all__ = ["router"]
 
-TEMPLATES = Path(__file__).with_name("templates")
-MAX_FORM_FIELD = 2000
-CSP = (
-    "default-src 'none'; style-src 'self'; img-src 'self'; form-action 'self'; frame-ancestors 'none'; base-uri 'none'"
-)
-
 router = APIRouter(include_in_schema=False)
-
-#: What the page says when a write cannot reach the decisions database.
-_READ_ONLY_FOR_NOW = (
-    "Not recorded: the decisions database cannot be reached just now, so the page is read-only for now."
-    " Search keeps serving the decisions loaded last; try again in a moment."
-)
-
-
-def _environment() -> Environment:
-    env = Environment(
-        loader=FileSystemLoader(str(TEMPLATES)),
-        autoescape=select_autoescape(enabled_extensions=("html",), default_for_string=True),
-        trim_blocks=True,
-        lstrip_blocks=True,
-    )
-    env.filters["debug_link"] = lambda params: "/debug?" + urlencode({k: v for k, v in params.items() if v})
-    env.filters["num"] = lambda v, places=3: "" if v is None else f"{v:.{places}f}"
-    return env
-
-
-_ENV = _environment()
-_CSS = (TEMPLATES / "review.css").read_bytes()
-
-
-def _access(state: ServiceState) -> ReviewAccess:
-    token = state.settings.review_token
-    return ReviewAccess(token.get_secret_value() if token else "")
-
-
-async def _form(request: Request) -> dict[str, str]:
-    raw = (await request.body()).decode("utf-8", errors="replace")
-    parsed = parse_qs(raw, keep_blank_values=True, max_num_fields=50)
-    return {k: v[0][:MAX_FORM_FIELD] for k, v in parsed.items() if v}
-
-
-def _page(request: Request, state: ServiceState, template: str, status: int = 200, **values: Any) -> HTMLResponse:
-    access = _access(state)
-    signed_in = access.signed_in(request.cookies.get(SESSION_COOKIE))
-    serving = state.serving
-    html = _ENV.get_template(template).render(
-        writable=access.enabled,
-        signed_in=signed_in,
-        csrf=access.csrf() if signed_in else "",
-        reviewer=unquote(request.cookies.get(REVIEWER_COOKIE, ""))[:100],
-        model=serving.lexicon if serving else None,
-        not_ready=state.not_ready_reason,
-        decisions_stale=state.decisions_stale,
-        **values,
-    )
-    response = HTMLResponse(html, status_code=status)
-    response.headers["Content-Security-Policy"] = CSP
-    response.headers["X-Content-Type-Options"] = "nosniff"
-    response.headers["Referrer-Policy"] = "same-origin"
-    response.headers["Cache-Control"] = "no-store"
-    return response
-
-
-def _entries(state: ServiceState, include_withdrawn: bool = False) -> list[Decision]:
-    """The decisions to list; none while their database is away (the page then says it is read-only
-    for now, and the expansions shown still apply the decisions loaded last)."""
-    try:
-        return state.decision_store.entries(include_withdrawn=include_withdrawn)
-    except DecisionsUnavailable:
-        return []
 
 
 def _phrase_page(
@@ -114,13 +43,15 @@ def _phrase_page(
     serving = state.serving
     values: dict[str, Any] = {"q": q, "compare": compare, "error": error, "bundles": state.store.listing()}
     if done:
-        values["done_decision"] = next((d for d in _entries(state, include_withdrawn=True) if str(d.id) == done), None)
+        values["done_decision"] = next(
+            (d for d in listed_decisions(state, include_withdrawn=True) if str(d.id) == done), None
+        )
     if serving is None or not q.strip():
-        return _page(request, state, "review_phrase.html", status, result=None, views=[], **values)
+        return page(request, state, "review_phrase.html", status, result=None, views=[], **values)
     q = q[: state.settings.max_query_chars]
     options = serving.options
     result, views = phrase_view(serving.lexicon, serving.cache, state.decisions, q, options)
-    active = _entries(state)
+    active = listed_decisions(state)
     views = [replace(v, decisions=[d for d in active if d.phrase == v.text]) for v in views]
     values.update(result=result, views=views)
     if compare and compare != serving.version:
@@ -144,20 +75,31 @@ def _phrase_page(
             }
         except ValueError as exc:
             values["preview_error"] = str(exc)
-    return _page(request, state, "review_phrase.html", status, **values)
+    return page(request, state, "review_phrase.html", status, **values)
 
 
-@router.get("/debug", response_class=HTMLResponse)
-def debug(request: Request, state: State, q: str = "", compare: str = "", done: str = "") -> HTMLResponse:
+@router.get("/debug", response_class=RedirectResponse)
+@router.get("/debug/{rest:path}", response_class=RedirectResponse)
+async def moved(request: Request, rest: str = "") -> RedirectResponse:
+    """The page's old address (it was /debug before it was named for what it is): a permanent redirect,
+    query kept, for the bookmarks of reviewers who used it."""
+    target = "/review" + (f"/{rest}" if rest else "")
+    if request.url.query:
+        target += "?" + request.url.query
+    return RedirectResponse(target, status_code=308)
+
+
+@router.get("/review", response_class=HTMLResponse)
+def phrase_page(request: Request, state: State, q: str = "", compare: str = "", done: str = "") -> HTMLResponse:
     return _phrase_page(request, state, q, compare, done=done if done.isdigit() else "")
 
 
-@router.get("/debug/review.css")
+@router.get("/review/review.css")
 async def stylesheet() -> Response:
-    return Response(_CSS, media_type="text/css", headers={"Cache-Control": "max-age=300"})
+    return Response(CSS, media_type="text/css", headers={"Cache-Control": "max-age=300"})
 
 
-@router.get("/debug/decisions", response_class=HTMLResponse)
+@router.get("/review/decisions", response_class=HTMLResponse)
 def decisions_page(
     request: Request,
     state: State,
@@ -166,7 +108,7 @@ def decisions_page(
     reviewer: str = "",
     shown: str = Query(default="active", alias="state"),
 ) -> HTMLResponse:
-    rows = _entries(state, include_withdrawn=True)
+    rows = listed_decisions(state, include_withdrawn=True)
     if phrase:
         rows = [d for d in rows if phrase.lower() in d.phrase or (d.neighbour and phrase.lower() in d.neighbour)]
     if action in ("block", "pin", "exempt"):
@@ -183,67 +125,49 @@ def decisions_page(
     except DecisionsUnavailable:
         trail = []
     filters = {"phrase": phrase, "action": action, "reviewer": reviewer, "state": shown}
-    return _page(request, state, "review_decisions.html", decisions=rows, trail=trail, filters=filters)
+    return page(request, state, "review_decisions.html", decisions=rows, trail=trail, filters=filters)
 
 
-@router.get("/debug/access", response_class=HTMLResponse)
+@router.get("/review/access", response_class=HTMLResponse)
 async def access_page(request: Request, state: State) -> HTMLResponse:
-    return _page(request, state, "review_access.html")
+    return page(request, state, "review_access.html")
 
 
-@router.post("/debug/access")
+@router.post("/review/access")
 async def sign_in(request: Request, state: State) -> Response:
-    form = await _form(request)
-    access = _access(state)
+    form = await read_form(request)
+    access = access_of(state)
     if not access.enabled:
-        return _page(
+        return page(
             request, state, "review_access.html", 403, error="This service has no review token; it is read-only."
         )
     if not access.token_matches(form.get("token", "")):
-        return _page(request, state, "review_access.html", 403, error="That is not the review token.")
-    response = RedirectResponse("/debug", status_code=303)
+        return page(request, state, "review_access.html", 403, error="That is not the review token.")
+    response = RedirectResponse("/review", status_code=303)
     secure = request.url.scheme == "https"
     response.set_cookie(SESSION_COOKIE, access.session_key(), httponly=True, samesite="strict", secure=secure, path="/")
     return response
 
 
-@router.post("/debug/leave")
+@router.post("/review/leave")
 async def sign_out(request: Request, state: State) -> Response:
-    form = await _form(request)
-    if not _access(state).csrf_matches(form.get("csrf", "")):
-        return _page(request, state, "review_access.html", 403, error="The form is stale; sign in again.")
-    response = RedirectResponse("/debug", status_code=303)
+    form = await read_form(request)
+    if not access_of(state).csrf_matches(form.get("csrf", "")):
+        return page(request, state, "review_access.html", 403, error="The form is stale; sign in again.")
+    response = RedirectResponse("/review", status_code=303)
     response.delete_cookie(SESSION_COOKIE, path="/", httponly=True, samesite="strict")
     return response
 
 
-def _refused(request: Request, state: ServiceState, form: dict[str, str]) -> HTMLResponse | None:
-    """The refusal page when the poster may not write, else None."""
-    access = _access(state)
-    if not access.enabled:
-        return _page(
-            request, state, "review_access.html", 403, error="This service has no review token; it is read-only."
-        )
-    if not access.signed_in(request.cookies.get(SESSION_COOKIE)):
-        return _page(
-            request, state, "review_access.html", 401, error="Give the review token before changing decisions."
-        )
-    if not access.csrf_matches(form.get("csrf", "")):
-        return _page(
-            request, state, "review_access.html", 403, error="The form is stale or came from elsewhere; try again."
-        )
-    return None
-
-
 async def _writer_form(request: Request, state: ServiceState) -> tuple[dict[str, str], HTMLResponse | None]:
     """The posted form, and the refusal page when the poster may not write."""
-    form = await _form(request)
-    return form, _refused(request, state, form)
+    form = await read_form(request)
+    return form, refused(request, state, form)
 
 
 def _after_write(request: Request, state: ServiceState, form: dict[str, str], decision: Decision) -> Response:
     state.check_decisions()  # this worker at once; the others within their decisions poll
-    target = "/debug?" + urlencode({"q": form.get("q", "") or decision.phrase, "done": str(decision.id)})
+    target = "/review?" + urlencode({"q": form.get("q", "") or decision.phrase, "done": str(decision.id)})
     if form.get("compare"):
         target += "&" + urlencode({"compare": form["compare"]})
     response = RedirectResponse(target, status_code=303)
@@ -260,7 +184,7 @@ async def _again(request: Request, state: ServiceState, form: dict[str, str], pr
     )
 
 
-@router.post("/debug/decide")
+@router.post("/review/decide")
 async def decide(request: Request, state: State) -> Response:
     form, denied = await _writer_form(request, state)
     if denied is not None:
@@ -291,11 +215,11 @@ async def decide(request: Request, state: State) -> Response:
     except DecisionError as exc:
         return await _again(request, state, form, f"Not recorded: {exc}.")
     except DecisionsUnavailable:
-        return await _again(request, state, form, _READ_ONLY_FOR_NOW)
+        return await _again(request, state, form, READ_ONLY_FOR_NOW)
     return await run_in_threadpool(_after_write, request, state, form, decision)
 
 
-@router.post("/debug/withdraw")
+@router.post("/review/withdraw")
 async def withdraw(request: Request, state: State) -> Response:
     form, denied = await _writer_form(request, state)
     if denied is not None:
@@ -310,5 +234,5 @@ async def withdraw(request: Request, state: State) -> Response:
     except (DecisionError, ValueError) as exc:
         return await _again(request, state, form, f"Not withdrawn: {exc}.")
     except DecisionsUnavailable:
-        return await _again(request, state, form, _READ_ONLY_FOR_NOW)
+        return await _again(request, state, form, READ_ONLY_FOR_NOW)
     return await run_in_threadpool(_after_write, request, state, form, decision)

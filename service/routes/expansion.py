@@ -1,23 +1,66 @@
-"""`/v1/expand`: one query (GET or POST) or a batch, answered with the core's result model."""
+"""`/v1/expand`: one query (GET or POST) or a batch, answered with the core's result model.
+
+One way through for GET and POST alike: a request becomes an `ExpandCall` (the GET's query string
+through `read_query_string`, the POST's body through its model), and `answer` checks the query's
+limits, looks the call up in the response cache under one key, expands it with the serving bundle
+and frames the JSON. `service.middleware.expand_shortcut.ExpandShortcut` calls the same two
+functions for a GET before the framework's routing, so a front end's GETs cost no more than they
+must; the route below answers the GETs it lets through (browser calls, for CORS) the same way.
+"""
 
 from __future__ import annotations
 
-from typing import Literal
+from typing import Any, NamedTuple
+from urllib.parse import parse_qsl
 
-from fastapi import APIRouter, Query, Request
+from fastapi import APIRouter, Request
 from fastapi.responses import Response
+from pydantic import ValidationError
 
+from service.asgi import Receive, Scope, Send, send_json
 from service.errors import ERRORS, ApiError
 from service.routes import State
-from service.state import ServiceState
-from service.wire import BatchRequest, BatchResponse, ExpandRequest, RequestOptions
+from service.state import ServiceState, Serving
+from service.wire import BatchRequest, BatchResponse, ExpandRequest, RequestOptions, asked_of
+from widen.decisions.decision import DecisionSet
 from widen.expansion.expand import expand
 from widen.expansion.result import ExpansionResult
 from widen.text.tokenize import tokens
 
-__all__ = ["router", "expand_one"]
+__all__ = ["router", "ExpandCall", "read_query_string", "answer", "JsonBody"]
 
 router = APIRouter(tags=["expand"])
+
+#: What a GET with `q` alone asks: the options as served.
+_AS_SERVED = RequestOptions()
+_ASKABLE = frozenset(RequestOptions.model_fields)
+
+
+class ExpandCall(NamedTuple):
+    """One query to expand: the seeker's text, the request field it came in (named by an error), and
+    what the request asks of the options."""
+
+    query: str
+    field: str
+    asked: RequestOptions
+
+
+def read_query_string(raw: bytes) -> ExpandCall:
+    """A GET's query string as the call it asks for; ApiError naming the parameter at fault. Read as
+    the framework reads one (latin-1, then percent-decoding as UTF-8; the last of a repeated name
+    wins); parameters it does not know are ignored."""
+    values = dict(parse_qsl(raw.decode("latin-1"), keep_blank_values=True))
+    query = values.pop("q", None)
+    if query is None:
+        raise ApiError(400, "invalid_request", "Field required", "q")
+    asked = {k: v for k, v in values.items() if k in _ASKABLE}
+    if not asked:
+        return ExpandCall(query, "q", _AS_SERVED)
+    try:
+        return ExpandCall(query, "q", RequestOptions.model_validate(asked, strict=False))
+    except ValidationError as exc:
+        first = exc.errors()[0]
+        raise ApiError(400, "invalid_request", str(first["msg"]), ".".join(str(p) for p in first["loc"])) from exc
 
 
 def _check_query(query: str, field: str, max_chars: int, max_tokens: int) -> None:
@@ -32,12 +75,11 @@ def _check_query(query: str, field: str, max_chars: int, max_tokens: int) -> Non
         raise ApiError(400, "query_too_long", f"the query is over {max_tokens} words", field)
 
 
-def expand_one(state: ServiceState, query: str, asked: RequestOptions, field: str) -> ExpansionResult:
-    """Expand one query with the serving bundle, as the request asks; ApiError for a 4xx or 503."""
-    serving = state.serving  # taken once: a swap never changes the bundle under this request
-    if serving is None:
-        raise ApiError(503, "not_ready", state.not_ready_reason)
-    _check_query(query, field, state.settings.max_query_chars, serving.options.max_tokens)
+def _expanded(state: ServiceState, serving: Serving, decisions: DecisionSet, call: ExpandCall) -> ExpansionResult:
+    """The call expanded with one serving bundle and one snapshot of the decisions (a swap of either
+    never changes them under a request in flight); ApiError for a query over the limits."""
+    _check_query(call.query, call.field, state.settings.max_query_chars, serving.options.max_tokens)
+    asked = call.asked
     options = serving.options.with_request(
         max=asked.max,
         min_similarity=asked.min_similarity,
@@ -46,77 +88,81 @@ def expand_one(state: ServiceState, query: str, asked: RequestOptions, field: st
         places=asked.places,
         match=asked.match,
     )
-    return expand(serving.lexicon, state.decisions, query, options, explain=asked.explain, cache=serving.cache)
+    return expand(serving.lexicon, decisions, call.query, options, explain=asked.explain, cache=serving.cache)
 
 
-def _json(result: ExpansionResult | BatchResponse) -> Response:
-    return Response(result.model_dump_json(), media_type="application/json")
-
-
-def _cached(state: ServiceState, query: str, asked: RequestOptions, field: str, edge_caches: bool) -> Response:
-    if edge_caches:  # the edge missed this key a moment ago and will keep the response itself
-        return _json(expand_one(state, query, asked, field))
-    serving, decisions = state.serving, state.decisions
-    key = (
-        serving.version if serving else None,
-        decisions.version,
-        query,
-        asked.max,
-        asked.min_similarity,
-        asked.explain,
-        asked.original_boost,
-        asked.operator,
-        asked.places,
-        asked.match,
-    )
-    found = state.cache.get(key)
-    if found is None:
+def answer(state: ServiceState, call: ExpandCall) -> bytes:
+    """The response body of one call, from the response cache when it holds it (by bundle, decisions,
+    query and options, so a new bundle or decision is never answered from it); ApiError for a 4xx or 503."""
+    serving, decisions = state.serving, state.decisions  # each taken once, for the whole request
+    if serving is None:
+        raise ApiError(503, "not_ready", state.not_ready_reason)
+    cache = state.cache
+    key = (serving.version, decisions.version, call.query, call.asked)
+    if cache.size > 0:
+        found = cache.get(key)
+        if found is not None:
+            state.telemetry.cache_hits.inc()
+            return found
         state.telemetry.cache_misses.inc()
-        found = expand_one(state, query, asked, field).model_dump_json().encode()
-        state.cache.put(key, found)
-    else:
-        state.telemetry.cache_hits.inc()
-    return Response(found, media_type="application/json")
+    body = _expanded(state, serving, decisions, call).model_dump_json().encode()
+    cache.put(key, body)
+    return body
 
 
-@router.get("/v1/expand", response_model=ExpansionResult, responses=ERRORS)
-async def expand_get(
-    request: Request,
-    state: State,
-    q: str = Query(min_length=1, max_length=256, description="the seeker's query"),
-    max: int | None = Query(default=None, ge=1, le=50),
-    min_similarity: float | None = Query(default=None, ge=0.0, le=1.0),
-    explain: bool = False,
-    original_boost: float | None = Query(default=None, gt=0.0, le=100.0),
-    operator: Literal["AND", "OR"] | None = None,
-    places: Literal["text", "field"] | None = Query(
-        default=None, description="a place or employer in the free text, or in its own field of the index"
-    ),
-    match: Literal["job", "all"] | None = Query(
-        default=None, description="all (default): every segment but noise words is required; job: only the job"
-    ),
-) -> Response:
+class JsonBody(Response):
+    """A 200 with a body already in JSON, framed by `send_json` as the shortcut frames one."""
+
+    media_type = "application/json"
+
+    def __init__(self, body: bytes) -> None:
+        self.json, self.body, self.status_code, self.background = body, body, 200, None
+
+    async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
+        await send_json(send, self.json)
+
+
+def _query_parameters() -> list[dict[str, Any]]:
+    """The GET's parameters for the OpenAPI document, from the models `read_query_string` checks with."""
+    schema = RequestOptions.model_json_schema()
+    q = {
+        "name": "q",
+        "in": "query",
+        "required": True,
+        "description": "the seeker's query, as typed (at most WIDEN_MAX_QUERY_CHARS characters, 256 by default)",
+        "schema": {"type": "string", "minLength": 1},
+    }
+    return [q] + [
+        {"name": name, "in": "query", "required": False, "description": prop.get("description", ""), "schema": prop}
+        for name, prop in schema["properties"].items()
+    ]
+
+
+@router.get(
+    "/v1/expand",
+    response_model=ExpansionResult,
+    responses=ERRORS,
+    openapi_extra={"parameters": _query_parameters()},
+)
+async def expand_get(request: Request, state: State) -> Response:
     """Expand one query; the result model is the same as the CLI's JSON."""
-    asked = RequestOptions.model_construct(
-        max=max,
-        min_similarity=min_similarity,
-        explain=explain,
-        original_boost=original_boost,
-        operator=operator,
-        places=places,
-        match=match,
-    )
-    return _cached(state, q, asked, "q", bool(request.scope.get("widen.edge_caches")))
+    return JsonBody(answer(state, read_query_string(request.scope.get("query_string", b""))))
 
 
 @router.post("/v1/expand", response_model=ExpansionResult, responses=ERRORS)
 async def expand_post(body: ExpandRequest, state: State) -> Response:
-    return _cached(state, body.query, body, "query", False)
+    return JsonBody(answer(state, ExpandCall(body.query, "query", asked_of(body))))
 
 
 @router.post("/v1/expand/batch", response_model=BatchResponse, responses=ERRORS)
 async def expand_batch(body: BatchRequest, state: State) -> Response:
     if len(body.queries) > state.settings.max_batch:
         raise ApiError(400, "batch_too_large", f"at most {state.settings.max_batch} queries a batch", "queries")
-    results = [expand_one(state, q, body, f"queries.{n}") for n, q in enumerate(body.queries)]
-    return _json(BatchResponse(results=results))
+    serving, decisions = state.serving, state.decisions
+    if serving is None:
+        raise ApiError(503, "not_ready", state.not_ready_reason)
+    asked = asked_of(body)
+    results = [
+        _expanded(state, serving, decisions, ExpandCall(q, f"queries.{n}", asked)) for n, q in enumerate(body.queries)
+    ]
+    return JsonBody(BatchResponse(results=results).model_dump_json().encode())

@@ -64,25 +64,37 @@ def _kinds_table(report: dict[str, Any]) -> list[str]:
 
 def write_report(report: dict[str, Any], out: Path, model_version: str, board: str = "") -> list[Path]:
     """report.json, report.md, qrels.txt, a TREC run file per method and two PNG plots."""
-    plt = _plt()
     out.mkdir(parents=True, exist_ok=True)
-    runs, qrels = report["_runs"], report["_qrels"]
     public = {k: v for k, v in report.items() if not k.startswith("_")}
     public["model"] = model_version
     public["board"] = board
     (out / "report.json").write_text(json.dumps(public, indent=2) + "\n", encoding="utf-8")
+    written = [out / "report.json", *_trec_files(report, out)]
+    written += _plots(report, out, board)
+    (out / "report.md").write_text("\n".join(_markdown(report, model_version, board)), encoding="utf-8")
+    written.append(out / "report.md")
+    return written
+
+
+def _trec_files(report: dict[str, Any], out: Path) -> list[Path]:
+    """The judgements and every method's run, in trec_eval's formats."""
     with (out / "qrels.txt").open("w", encoding="utf-8") as fh:
-        for qid, rel in qrels.items():
+        for qid, rel in report["_qrels"].items():
             for doc, grade in sorted(rel.items()):
                 fh.write(f"{qid} 0 {doc} {grade}\n")
-    written = [out / "report.json", out / "qrels.txt"]
-    for name, run in runs.items():
+    written = [out / "qrels.txt"]
+    for name, run in report["_runs"].items():
         with (out / f"{name}.run").open("w", encoding="utf-8") as fh:
             for qid, docs in run.items():
                 for rank, doc in enumerate(trec_order(docs), start=1):
                     fh.write(f"{qid} Q0 {doc} {rank} {docs[doc]:.6f} widen-{name}\n")
         written.append(out / f"{name}.run")
+    return written
 
+
+def _plots(report: dict[str, Any], out: Path, board: str) -> list[Path]:
+    """Recall@k of every method, and recall@100 by kind of query."""
+    plt = _plt()
     fig, ax = plt.subplots(figsize=(7, 4.2))
     for m, values in report["recall_curve"].items():
         ax.plot(_CUTS, values, marker="o", label=m, linewidth=2 if m == "widen" else 1)
@@ -113,8 +125,10 @@ def write_report(report: dict[str, Any], out: Path, model_version: str, board: s
     fig.tight_layout()
     fig.savefig(out / "recall_by_kind.png", dpi=110)
     plt.close(fig)
-    written += [out / "recall_at_k.png", out / "recall_by_kind.png"]
+    return [out / "recall_at_k.png", out / "recall_by_kind.png"]
 
+
+def _markdown(report: dict[str, Any], model_version: str, board: str) -> list[str]:
     lines = [
         f"# Search impact of widen on {board or 'the labelled queries'} (bundle {model_version})",
         "",
@@ -144,9 +158,7 @@ def write_report(report: dict[str, Any], out: Path, model_version: str, board: s
         values = list(w["ndcg@10"].values())
         lines.append(f"| {w['query']} | {values[0]:.3f} | {values[-1]:.3f} |")
     lines += ["", "![recall@k](recall_at_k.png)", "", "![recall@100 by kind](recall_by_kind.png)", ""]
-    (out / "report.md").write_text("\n".join(lines), encoding="utf-8")
-    written.append(out / "report.md")
-    return written
+    return lines
 
 
 def write_windows(curve: dict[int, dict[str, Any]], out: Path, board: str = "") -> list[Path]:

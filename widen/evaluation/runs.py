@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import json
 import statistics
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -99,12 +99,52 @@ def evaluate(
 
     widen's query names places in the index's own fields (`places = "field"`): the index has them."""
     options = options.with_request(places=places)
-    cache = ExpansionCache(lexicon)
     chosen = [m for m in (methods or METHODS) if m != "curated" or truth is not None]
     curated = CuratedList(truth) if truth is not None else None
-    feedback = rm3 or RM3()
-    indexed = index.ids
     names = [f"recall@{k}" for k in ks] + ["ndcg@10", "mrr", "exact_first"]
+    runs, qrels, rows = _run(lexicon, decisions, index, queries, options, ks, curated, rm3 or RM3(), chosen)
+
+    def summary(subset: Sequence[dict[str, Any]]) -> dict[str, dict[str, float]]:
+        return {m: {n: _mean([r[m][n] for r in subset]) for n in names} for m in chosen}
+
+    families: dict[str, list[dict[str, Any]]] = {}
+    for r in rows:
+        families.setdefault(r["family"], []).append(r)
+    return {
+        "methods": summary(rows),
+        "descriptions": {m: METHODS[m] for m in chosen},
+        "queries": len(rows),
+        "left_out": len(queries) - len(rows),
+        "index_postings": index.size,
+        "significance": {
+            "against": BASELINE,
+            "test": "paired randomisation, two-sided",
+            "p": _significance(rows, chosen),
+        },
+        "kinds": _by_kind(rows, chosen, summary),
+        "per_family": {f: summary(members) for f, members in sorted(families.items())},
+        "worst": _worst(rows, chosen),
+        "recall_curve": {m: [_mean([r["recall_curve"][m][i] for r in rows]) for i in range(4)] for m in chosen},
+        "_runs": runs,
+        "_qrels": qrels,
+        "_rows": rows,
+    }
+
+
+def _run(
+    lexicon: Lexicon,
+    decisions: DecisionSet,
+    index: SearchIndex,
+    queries: list[LabelledQuery],
+    options: ExpansionOptions,
+    ks: Sequence[int],
+    curated: CuratedList | None,
+    feedback: RM3,
+    chosen: Sequence[str],
+) -> tuple[dict[str, dict[str, dict[str, float]]], dict[str, dict[str, int]], list[dict[str, Any]]]:
+    """Every method's run of every judged query, the judgements, and one row of scores a query."""
+    cache = ExpansionCache(lexicon)
+    indexed = index.ids
     runs: dict[str, dict[str, dict[str, float]]] = {m: {} for m in chosen}
     qrels: dict[str, dict[str, int]] = {}
     rows: list[dict[str, Any]] = []
@@ -131,10 +171,13 @@ def evaluate(
             m: [recall_at(trec_order(runs[m][q.id]), relevant, k) for k in (10, 25, 50, 100)] for m in chosen
         }
         rows.append(row)
+    return runs, qrels, rows
 
-    def summary(subset: Sequence[dict[str, Any]]) -> dict[str, dict[str, float]]:
-        return {m: {n: _mean([r[m][n] for r in subset]) for n in names} for m in chosen}
 
+def _by_kind(
+    rows: list[dict[str, Any]], chosen: Sequence[str], summary: Callable[[Sequence[dict[str, Any]]], Any]
+) -> dict[str, Any]:
+    """The means by kind of query, and each kind against the same queries without what makes it that kind."""
     by_id = {r["id"]: r for r in rows}
     kinds: dict[str, Any] = {}
     for kind in KINDS:
@@ -154,7 +197,11 @@ def evaluate(
                 for m in chosen
             }
         kinds[kind] = entry
-    significance = {
+    return kinds
+
+
+def _significance(rows: list[dict[str, Any]], chosen: Sequence[str]) -> dict[str, dict[str, float]]:
+    return {
         m: {
             n: round(paired_randomisation([r[m][n] for r in rows], [r[BASELINE][n] for r in rows]), 5)
             for n in ("ndcg@10", "recall@100")
@@ -162,31 +209,18 @@ def evaluate(
         for m in chosen
         if m != BASELINE and BASELINE in chosen
     }
-    families: dict[str, list[dict[str, Any]]] = {}
-    for r in rows:
-        families.setdefault(r["family"], []).append(r)
+
+
+def _worst(rows: list[dict[str, Any]], chosen: Sequence[str]) -> list[dict[str, Any]]:
+    """The ten queries where widen's nDCG@10 falls furthest below the bag of words'."""
     compare = "widen" if "widen" in chosen else chosen[0]
     against = BASELINE if BASELINE in chosen else chosen[0]
     worst = sorted(rows, key=lambda r: r[compare]["ndcg@10"] - r[against]["ndcg@10"])[:10]
-    return {
-        "methods": summary(rows),
-        "descriptions": {m: METHODS[m] for m in chosen},
-        "queries": len(rows),
-        "left_out": len(queries) - len(rows),
-        "index_postings": index.size,
-        "significance": {"against": BASELINE, "test": "paired randomisation, two-sided", "p": significance},
-        "kinds": kinds,
-        "per_family": {f: summary(members) for f, members in sorted(families.items())},
-        "worst": [
-            {
-                "id": r["id"],
-                "query": r["query"],
-                "ndcg@10": {against: r[against]["ndcg@10"], compare: r[compare]["ndcg@10"]},
-            }
-            for r in worst
-        ],
-        "recall_curve": {m: [_mean([r["recall_curve"][m][i] for r in rows]) for i in range(4)] for m in chosen},
-        "_runs": runs,
-        "_qrels": qrels,
-        "_rows": rows,
-    }
+    return [
+        {
+            "id": r["id"],
+            "query": r["query"],
+            "ndcg@10": {against: r[against]["ndcg@10"], compare: r[compare]["ndcg@10"]},
+        }
+        for r in worst
+    ]
