@@ -30,7 +30,7 @@ p = cfg["phrases"]
 scoring = "npmi" if p["scoring"] == "npmi" else "default"  # gensim's names for our scorers
 for _ in range(p["max_words"] - 1):
     frozen = Phrases(sents, min_count=p["min_count"], threshold=p["threshold"], scoring=scoring,
-                     connector_words=frozenset(p["connector_words"]), delimiter="_").freeze()
+                     connector_words=frozenset(p["bridge_words"]), delimiter="_").freeze()
     sents = [frozen[s] for s in sents]
 e = cfg["embedding"]
 Word2Vec(sents, sg=1, hs=0, negative=e["negative"], vector_size=e["vector_size"], window=e["window"],

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import logging
 from typing import Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field
@@ -9,9 +10,12 @@ from pydantic import BaseModel, ConfigDict, Field
 from widen.decisions.decision import Decision
 from widen.expansion.result import ExpansionResult
 
+log = logging.getLogger("widen.serve")
+
 __all__ = [
     "RequestOptions",
     "asked_of",
+    "boost_scale_of",
     "ExpandRequest",
     "BatchRequest",
     "BatchResponse",
@@ -34,7 +38,16 @@ class RequestOptions(BaseModel):
     max: int | None = Field(default=None, ge=1, le=50, description="at most this many expansions a segment")
     min_similarity: float | None = Field(default=None, ge=0.0, le=1.0)
     explain: bool = False
-    original_boost: float | None = Field(default=None, gt=0.0, le=100.0)
+    boost_scale: float | None = Field(
+        default=None, gt=0.0, le=100.0, description="every clause's weight, the seeker's words' too, is times this"
+    )
+    original_boost: float | None = Field(
+        default=None,
+        gt=0.0,
+        le=100.0,
+        description="deprecated: the old name of boost_scale, read for one release",
+        json_schema_extra={"deprecated": True},
+    )
     operator: Literal["AND", "OR"] | None = None
     places: Literal["text", "field"] | None = Field(
         default=None, description="a place or employer in the free text, or in its own field of the index"
@@ -53,6 +66,14 @@ class ExpandRequest(RequestOptions):
 
 class BatchRequest(RequestOptions):
     queries: list[str] = Field(min_length=1, max_length=100)
+
+
+def boost_scale_of(asked: RequestOptions) -> float | None:
+    """The boost scale a request asks for, under its name or its old one (logged: the old name goes next release)."""
+    if asked.original_boost is not None and asked.boost_scale is None:
+        log.warning("the request parameter original_boost is now called boost_scale; read as such")
+        return asked.original_boost
+    return asked.boost_scale
 
 
 def asked_of(body: RequestOptions) -> RequestOptions:

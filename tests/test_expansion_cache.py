@@ -101,7 +101,7 @@ def test_what_is_worked_out_once_never_changes_a_result(trained_store: Path, dem
                 "drvier",
                 "xq",
                 '"',
-                "c++",
+                "q++",
             ]
         ),
         min_size=1,

@@ -46,7 +46,7 @@ def test_default_scorer_equals_mikolov_formula_worked_by_hand() -> None:
     assert math.isclose(table["lorry_driver"], expected)
 
 
-def test_connector_words_let_titles_like_head_of_care_form() -> None:
+def test_bridge_words_let_titles_like_head_of_care_form() -> None:
     sentences = [["head", "of", "care", "wanted"]] * 5 + [["care", "home"], ["head", "office"]]
     table = _table(sentences, scoring="npmi", threshold=0.3, max_words=3)
     assert "head_of_care" in table

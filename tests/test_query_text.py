@@ -38,7 +38,7 @@ HOSTILE = [
     "nurse*",
     "driver~2",
     "a&e nurse 24/7",
-    "c++ c# .net",
+    "q++ q# .qdata",
     "\u202e rn \u202c",
     "x" * 300,
 ]

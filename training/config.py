@@ -17,7 +17,7 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_valida
 
 from widen.errors import ConfigError
 from widen.expansion.options import ExpansionOptions
-from widen.model.phrases import CONNECTOR_WORDS, Scoring
+from widen.model.phrases import BRIDGE_WORDS, Scoring
 
 __all__ = ["TrainConfig", "ConfigError", "load_config"]
 
@@ -49,11 +49,24 @@ class PhrasesSection(_Section):
     threshold: float = 0.5
     max_words: int = Field(default=3, ge=1, le=6)
     scoring: Scoring = "npmi"
-    connector_words: list[str] = CONNECTOR_WORDS
+    # Words a phrase may bridge over ("head of care"); gensim's English list by default.
+    bridge_words: list[str] = BRIDGE_WORDS
     # A title core (the job a title field names, decorations taken out) named by at least this many
     # postings becomes one vocabulary entry, up to `title_max_words` words, whatever the passes did.
     title_min_count: int = Field(default=10, ge=1)
     title_max_words: int = Field(default=4, ge=2, le=8)
+
+    @model_validator(mode="before")
+    @classmethod
+    def _renamed(cls, data: Any) -> Any:
+        if isinstance(data, dict) and "connector_words" in data:
+            data = dict(data)
+            old = data.pop("connector_words")
+            data.setdefault("bridge_words", old)
+            log.warning(
+                "phrases.connector_words is now called bridge_words; read as such (the old name goes next release)"
+            )
+        return data
 
     @field_validator("scoring", mode="before")
     @classmethod

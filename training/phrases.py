@@ -73,7 +73,7 @@ def learn_phrases(
             threshold=config.threshold,
             scoring="npmi" if config.scoring == "npmi" else "default",  # gensim's names
             delimiter=PHRASE_JOINER,
-            connector_words=frozenset(config.connector_words),
+            connector_words=frozenset(config.bridge_words),
             progress_per=10**12,
         )
         frozen = model.freeze()

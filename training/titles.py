@@ -24,7 +24,7 @@ _SEPARATORS = re.compile(r"\s[-\u2013\u2014|/~]\s|[|()\[\]{}!?*:;,]")
 
 
 def is_short_number(token: str) -> bool:
-    """A number a title carries inside it ("class 1 driver", "band 5 nurse"): one or two digits."""
+    """A number a title carries inside it ("class 1 driver", "grade 2 welder"): one or two digits."""
     return token.isdigit() and len(token) <= 2
 
 

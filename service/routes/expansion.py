@@ -21,7 +21,7 @@ from service.asgi import Receive, Scope, Send, send_json
 from service.errors import ERRORS, ApiError
 from service.routes import State
 from service.state import ServiceState, Serving
-from service.wire import BatchRequest, BatchResponse, ExpandRequest, RequestOptions, asked_of
+from service.wire import BatchRequest, BatchResponse, ExpandRequest, RequestOptions, asked_of, boost_scale_of
 from widen.decisions.decision import DecisionSet
 from widen.expansion.expand import expand
 from widen.expansion.result import ExpansionResult
@@ -83,7 +83,7 @@ def _expanded(state: ServiceState, serving: Serving, decisions: DecisionSet, cal
     options = serving.options.with_request(
         max=asked.max,
         min_similarity=asked.min_similarity,
-        original_boost=asked.original_boost,
+        boost_scale=boost_scale_of(asked),
         operator=asked.operator,
         places=asked.places,
         match=asked.match,

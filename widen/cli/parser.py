@@ -6,7 +6,7 @@ import argparse
 import os
 from pathlib import Path
 
-from widen.cli import expanding, reviewing, serving, stores
+from widen.cli import bundles, evaluating, expanding, reviewing, serving, training
 
 __all__ = ["build_parser"]
 
@@ -43,7 +43,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--pairs", type=Path, help="gate pairs file, overriding gate.pairs of the config")
     p.add_argument("--force", action="store_true", help="promote even if the gate refuses (recorded as forced)")
     p.add_argument("--print-config", action="store_true", help="print the effective config as TOML and stop")
-    p.set_defaults(handler=stores.train)
+    p.set_defaults(handler=training.train)
 
     p = sub.add_parser(
         "bundles",
@@ -53,7 +53,7 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.add_argument("--store", type=Path, required=True)
     p.add_argument("--json", action="store_true", help="JSON output")
-    p.set_defaults(handler=stores.bundles)
+    p.set_defaults(handler=bundles.bundles)
 
     p = sub.add_parser(
         "promote",
@@ -65,7 +65,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("version")
     p.add_argument("--store", type=Path, required=True)
     p.add_argument("--force", action="store_true", help="allow a bundle that the gate refused")
-    p.set_defaults(handler=stores.promote)
+    p.set_defaults(handler=bundles.promote)
 
     p = sub.add_parser(
         "rollback",
@@ -74,7 +74,7 @@ def build_parser() -> argparse.ArgumentParser:
         epilog="examples:\n  widen rollback --store build/store",
     )
     p.add_argument("--store", type=Path, required=True)
-    p.set_defaults(handler=stores.rollback)
+    p.set_defaults(handler=bundles.rollback)
 
     p = sub.add_parser(
         "serve",
@@ -150,7 +150,7 @@ def build_parser() -> argparse.ArgumentParser:
         metavar="DOCS,TERMS,WEIGHT",
         help="RM3's feedback postings, terms and original-query weight (default 10,10,0.5)",
     )
-    p.set_defaults(handler=expanding.evaluate)
+    p.set_defaults(handler=evaluating.evaluate)
 
     p = sub.add_parser(
         "decide",

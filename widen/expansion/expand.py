@@ -163,7 +163,7 @@ def _answer(
     """Stages 5 and 6: the segments and clauses within the clause budget, and the query text."""
     originals = {span.typed or phrase_of_key(span.key) for span in spans if span.kind != "noise"}
     keep = within_budget([kept for kept, _ in expanded], len(originals), options)
-    boost = options.original_boost
+    boost = options.boost_scale
     segments: list[Segment] = []
     clauses: list[Clause] = []
     emitted: set[str] = set()

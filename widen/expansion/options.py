@@ -8,13 +8,16 @@ through `with_request`; the service's environment may override only `max_tokens`
 
 from __future__ import annotations
 
+import logging
 from collections.abc import Mapping
 from typing import Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, PrivateAttr
+from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, model_validator
 
 from widen.model.manifest import Manifest
-from widen.model.phrases import CONNECTOR_WORDS
+from widen.model.phrases import BRIDGE_WORDS
+
+log = logging.getLogger("widen.options")
 
 __all__ = ["ExpansionOptions", "DEFAULT_MODIFIERS", "DEFAULT_NOISE_WORDS", "DEFAULT_PATTERNS", "options_of"]
 
@@ -23,7 +26,7 @@ DEFAULT_MODIFIERS = ["senior", "junior", "trainee", "relief", "bank", "lead"]
 #: Words seekers add that name no job ("kp jobs near pellmire"); with the connector words of the
 #: phrase miner. A segment made only of them is dropped from the query and shown as `noise`.
 DEFAULT_NOISE_WORDS = [
-    *CONNECTOR_WORDS,
+    *BRIDGE_WORDS,
     "job",
     "jobs",
     "vacancy",
@@ -67,13 +70,29 @@ class ExpansionOptions(BaseModel):
     model_config = ConfigDict(extra="forbid", frozen=True)
     _key: str | None = PrivateAttr(default=None)
 
+    @model_validator(mode="before")
+    @classmethod
+    def _renamed(cls, data: Any) -> Any:
+        """Keys renamed since the last release, read under their new names for one release, with a warning."""
+        if isinstance(data, dict) and "original_boost" in data:
+            data = dict(data)
+            old = data.pop("original_boost")
+            if "boost_scale" not in data:
+                data["boost_scale"] = old
+            log.warning(
+                "expansion.original_boost is now called boost_scale; read as such (the old name goes next release)"
+            )
+        return data
+
     max_per_segment: int = Field(default=5, ge=0, le=50, description="expansions kept for one segment")
     max_clauses: int = Field(default=12, ge=1, le=200, description="clauses in the whole query_text")
     min_similarity: float = Field(default=0.7, ge=0.0, le=1.0, description="neighbours below this cosine are dropped")
     max_expansion_weight: float = Field(default=0.5, gt=0.0, lt=1.0, description="an expansion's weight stays below")
     related_factor: float = Field(default=0.5, gt=0.0, le=1.0, description="weight factor of a related neighbour")
     strict: bool = Field(default=False, description="leave out neighbours hinted related (a different job)")
-    original_boost: float = Field(default=1.0, gt=0.0, le=100.0, description="every clause's weight is times this")
+    boost_scale: float = Field(
+        default=1.0, gt=0.0, le=100.0, description="every clause's weight, the seeker's words' too, is times this"
+    )
     operator: Literal["AND", "OR"] = "AND"
     allow_modifier_changes: bool = False
     modifiers: tuple[str, ...] = tuple(DEFAULT_MODIFIERS)
@@ -125,7 +144,7 @@ class ExpansionOptions(BaseModel):
         self,
         max: int | None = None,
         min_similarity: float | None = None,
-        original_boost: float | None = None,
+        boost_scale: float | None = None,
         operator: str | None = None,
         strict: bool | None = None,
         places: str | None = None,
@@ -135,7 +154,7 @@ class ExpansionOptions(BaseModel):
         asked: dict[str, Any] = {
             "max_per_segment": max,
             "min_similarity": min_similarity,
-            "original_boost": original_boost,
+            "boost_scale": boost_scale,
             "operator": operator,
             "strict": strict,
             "places": places,
@@ -177,7 +196,7 @@ class ExpansionOptions(BaseModel):
 
     def not_inside_phrases(self) -> frozenset[str]:
         """Words no mined phrase may join to others: pattern words and noise words, connectors aside."""
-        return (self.pattern_words() | frozenset(self.noise_words)) - frozenset(CONNECTOR_WORDS)
+        return (self.pattern_words() | frozenset(self.noise_words)) - frozenset(BRIDGE_WORDS)
 
 
 def options_of(manifest: Manifest) -> ExpansionOptions:

@@ -12,8 +12,8 @@ or employer is written into the free text (`places = "text"`) or into its own fi
 (`places = "field"`: `location:"Hensby"`), where agency boilerplate that lists every town cannot
 match it. `full_query` puts the seeker's words, all required and boosted, first, and the same words
 as optional terms last, so a posting that spells the pattern otherwise or names no town is still
-found, below those that match. This is the syntax of Lucene's classic query parser, which tantivy,
-Elasticsearch's query_string and Solr's standard parser read alike (common practice, no source).
+found, below those that match. This is the classic query syntax that most engines' query parsers read
+(common practice, no source); the tests parse every query widen writes with tantivy's parser.
 """
 
 from __future__ import annotations

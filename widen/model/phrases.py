@@ -17,11 +17,12 @@ from gensim.models.phrases import FrozenPhrases, npmi_scorer, original_scorer
 
 from widen.text.forms import PHRASE_JOINER
 
-__all__ = ["CONNECTOR_WORDS", "PhraseRow", "Phraser", "Scoring"]
+__all__ = ["BRIDGE_WORDS", "PhraseRow", "Phraser", "Scoring"]
 
-#: gensim's English connector words (gensim.models.phrases.ENGLISH_CONNECTOR_WORDS), written out
-#: so the config shows them and a team can change them.
-CONNECTOR_WORDS = ["a", "an", "and", "at", "by", "for", "from", "in", "of", "on", "or", "the", "to", "with", "without"]
+#: Words a phrase may bridge over without counting them ("head of care", "front of house"): the
+#: same list as gensim's English list for its Phrases (ENGLISH_CONNECTOR_WORDS), written out so the
+#: config shows them and a team can change them (`phrases.bridge_words`).
+BRIDGE_WORDS = ["a", "an", "and", "at", "by", "for", "from", "in", "of", "on", "or", "the", "to", "with", "without"]
 
 #: The phrase scorers, named for what they compute: `npmi` is normalised pointwise mutual
 #: information (Bouma 2009); `count_ratio` is (count(a b) - min_count) / (count(a) count(b))
@@ -89,7 +90,7 @@ class Phraser:
                     "min_count": int(p.min_count),
                     "scoring": "npmi" if p.scoring is npmi_scorer or p.scoring == "npmi" else "count_ratio",
                     "delimiter": p.delimiter,
-                    "connector_words": sorted(p.connector_words),
+                    "bridge_words": sorted(p.connector_words),
                     "phrasegrams": {k: float(v) for k, v in sorted(p.phrasegrams.items())},
                 }
                 for p in self.passes
@@ -107,7 +108,8 @@ class Phraser:
             frozen.min_count = item["min_count"]
             frozen.scoring = scorer(item["scoring"])
             frozen.delimiter = item["delimiter"]
-            frozen.connector_words = frozenset(item["connector_words"])
+            # gensim calls them connector words; bundles before the rename wrote that name
+            frozen.connector_words = frozenset(item.get("bridge_words", item.get("connector_words", ())))
             frozen.phrasegrams = dict(item["phrasegrams"])
             passes.append(frozen)
         return cls(passes, data.get("titles", ()))

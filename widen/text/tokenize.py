@@ -3,8 +3,8 @@
 Postings at training time and queries at serving time go through the same steps, so a
 query token is spelled exactly as the corpus token it should match: HTML tags stripped
 (block tags end a sentence), entities decoded, Unicode NFKC, case-folded, split into
-sentences, then into tokens. Trade tokens stay whole (c++, c#, .net, a&e, 24/7, c+e, 1st,
-node.js, k-12, h.c.a.); lone punctuation is dropped. A hyphenated compound is its words
+sentences, then into tokens. Trade tokens stay whole (q++, q#, .qdata, a&e, 24/7, c+e, 1st,
+mill.kit, k-12, h.c.a.); lone punctuation is dropped. A hyphenated compound is its words
 ("part-time" is "part time", "left-wing" is "left wing"), and so are contractions and
 possessives ("employer's" is "employer s"), unless a part holds a digit ("k-12", "covid-19").
 """
@@ -27,9 +27,9 @@ _QUOTES = str.maketrans({"\u2018": "'", "\u2019": "'", "\u201b": "'", "\u2032": 
 
 # One alternation, tried left to right at each position:
 #   1. dotted abbreviations: h.c.a., e.g.
-#   2. leading-dot names: .net
-#   3. words with inner joiners: c+e, a&e, node.js, k-12, 24/7, 24,500, 12.40, we're, a slash
-#      between two lone letters (p/t, f/t), and trailing + or # (c++, c#)
+#   2. leading-dot names: .qdata
+#   3. words with inner joiners: c+e, a&e, mill.kit, k-12, 24/7, 24,500, 12.40, we're, a slash
+#      between two lone letters (p/t, f/t), and trailing + or # (q++, q#)
 #   4. a sentence end: . ! ? ; or a line break
 _TOKEN = re.compile(
     r"""
@@ -118,7 +118,7 @@ def in_windows(entry: str) -> bool:
     """Whether skip-gram sees an entry: not a number (with or without a unit) nor a single character.
 
     Numbers and lone letters carry no meaning of their own in a window and crowd out the words
-    around them; trade tokens (c++, c#, 24/7, c+e, 1st) and phrases holding a number ("class 1")
+    around them; trade tokens (q++, q#, 24/7, c+e, 1st) and phrases holding a number ("class 1")
     are kept.
     """
     return len(entry) > 1 and not _NUMBER.match(entry)
