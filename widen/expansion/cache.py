@@ -11,25 +11,27 @@ Two kinds of thing are kept, each in its own bounded table:
   `keep_answers=False` every call works these out again: the reference the tests compare the
   kept answers with, byte for byte.
 
-Keys are named tuples of what a value depends on; options are hashable (`ExpansionOptions`), so
-equal options are one key whichever object holds them. The cache belongs to one lexicon.
+Each table's key is a tuple of what its values depend on, its type named below (`SpanKey`:
+entry, options, explain); options are hashable (`ExpansionOptions`), so equal options are one key
+whichever object holds them. Plain tuples, not named ones: one is made for most queries, and a
+plain tuple is the cheapest to make and hash. The cache belongs to one lexicon.
 """
 
 from __future__ import annotations
 
 import threading
 from collections.abc import Callable, Hashable
-from typing import TYPE_CHECKING, Any, Generic, NamedTuple, TypeVar
+from typing import TYPE_CHECKING, NamedTuple, TypeVar
 
 from widen.expansion.lexicon import EntryFacts, Lexicon
 from widen.expansion.options import ExpansionOptions
+from widen.expansion.result import Clause, Dropped, Expansion, ModelInfo, Segment
 from widen.expansion.segment import Vocabulary
 from widen.expansion.spelling import Speller, no_correction
 
 if TYPE_CHECKING:
     from widen.expansion.candidates import Candidate
     from widen.expansion.filters import Decided
-    from widen.expansion.result import Clause, Dropped, Expansion, ModelInfo, Segment
 
 __all__ = [
     "ExpansionCache",
@@ -47,37 +49,28 @@ K = TypeVar("K", bound=Hashable)
 V = TypeVar("V")
 
 
-class CandidatesKey(NamedTuple):
-    entry: int
-    candidates: int
+#: (entry, how many candidates)
+CandidatesKey = tuple[int, int]
 
 
-class DecidedKey(NamedTuple):
-    entry: int
-    options: ExpansionOptions
+#: (entry, options)
+DecidedKey = tuple[int, ExpansionOptions]
 
 
-class SpanKey(NamedTuple):
-    entry: int
-    options: ExpansionOptions
-    explain: bool
+#: (entry, options, explain)
+SpanKey = tuple[int, ExpansionOptions, bool]
 
 
-class AloneKey(NamedTuple):
-    entry: int
-    options: ExpansionOptions
+#: (entry, options)
+AloneKey = tuple[int, ExpansionOptions]
 
 
-class SidesKey(NamedTuple):
-    pattern: str
-    typed: str
-    options: ExpansionOptions
+#: (pattern, the spelling typed, options)
+SidesKey = tuple[str, str, ExpansionOptions]
 
 
-class EntryKey(NamedTuple):
-    entry: int
-    stop: frozenset[str]
-    title_share: float
+#: (entry, stop words, title share bar)
+EntryKey = tuple[int, frozenset[str], float]
 
 
 class _VocabularyKey(NamedTuple):
@@ -103,27 +96,21 @@ class Answer(NamedTuple):
     full_query: str
 
 
-class _Table(Generic[K, V]):
+class _Table(dict[K, V]):
     """A dict that stops growing at `limit` (a bound no real vocabulary reaches), and keeps nothing when
-    it is off."""
+    it is off; a dict, so a lookup costs what a dict's does."""
 
     def __init__(self, limit: int, on: bool = True) -> None:
+        super().__init__()
         self.limit, self.on = limit, on
-        self.items: dict[K, V] = {}
-
-    def get(self, key: K) -> V | None:
-        return self.items.get(key)
 
     def keep(self, key: K, value: V) -> V:
-        if self.on and len(self.items) < self.limit:
-            self.items[key] = value
+        if self.on and len(self) < self.limit:
+            self[key] = value
         return value
 
     def drop(self, key: K) -> None:
-        self.items.pop(key, None)
-
-    def __len__(self) -> int:
-        return len(self.items)
+        self.pop(key, None)
 
 
 class ExpansionCache:
@@ -138,7 +125,8 @@ class ExpansionCache:
         self.spans: _Table[SpanKey, SpanOutcome] = _Table(2_000_000, keep_answers)
         self.alone: _Table[AloneKey, Answer] = _Table(2_000_000, keep_answers)
         self.sides: _Table[SidesKey, tuple[Expansion, ...]] = _Table(100_000, keep_answers)
-        self._models: _Table[str, ModelInfo] = _Table(1, keep_answers)
+        #: The bundle a result came from: one object per bundle (results are never changed in place).
+        self.model_info = ModelInfo.model_construct(version=lexicon.version, created_at=lexicon.created_at)
         self._entries: _Table[EntryKey, EntryFacts] = _Table(1_000_000)
         self._duties: _Table[int, dict[int, float]] = _Table(1_000_000)
         self._apart: _Table[tuple[float, float], float | None] = _Table(1024)
@@ -150,8 +138,8 @@ class ExpansionCache:
 
     def forget_answers(self) -> None:
         """Let go of every answer kept (the derived data stays): a worker's state before its first query."""
-        for table in (self.candidates, self.decided, self.spans, self.alone, self.sides, self._models):
-            table.items.clear()
+        for table in (self.candidates, self.decided, self.spans, self.alone, self.sides):
+            table.clear()
 
     def answers(self) -> int:
         """How many answers are kept (all tables of answers together)."""
@@ -167,7 +155,7 @@ class ExpansionCache:
 
     def entry(self, j: int, stop: frozenset[str], title_share: float) -> EntryFacts:
         return self._derived(
-            self._entries, EntryKey(j, stop, title_share), lambda: self.lexicon.entry_facts(j, stop, title_share)
+            self._entries, (j, stop, title_share), lambda: self.lexicon.entry_facts(j, stop, title_share)
         )
 
     def duty_neighbours(self, j: int) -> dict[int, float]:
@@ -178,9 +166,9 @@ class ExpansionCache:
         """`Lexicon.different_jobs_cosine` at the options' quantile, worked out once per quantile."""
         quantile, related = options.apart_quantile(), options.related_duties
         key = (quantile, related)
-        if key not in self._apart.items:
-            self._apart.keep(key, self.lexicon.different_jobs_cosine(quantile, related))
-        return self._apart.items[key]
+        if key not in self._apart:
+            return self._apart.keep(key, self.lexicon.different_jobs_cosine(quantile, related))
+        return self._apart[key]
 
     def speller(self) -> Speller:
         if self._speller is None:
@@ -232,10 +220,3 @@ class ExpansionCache:
             made = self.lexicon.used_spellings(pattern, dict(self.vocabulary(options).spellings))
             found = self._spellings.keep(key, tuple(made))
         return list(found)
-
-    def model_info(self, make: Callable[[], Any]) -> Any:
-        """The bundle's model info: one object per bundle (results are never changed in place)."""
-        found = self._models.get(self.version)
-        if found is None:
-            found = self._models.keep(self.version, make())
-        return found

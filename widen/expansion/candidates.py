@@ -71,7 +71,7 @@ def find_candidates(lex: Lexicon, cache: ExpansionCache, span: Span, options: Ex
         )
         return Found(found, "composed", float(np.mean(lex.title_share[rows])))
     i = lex.index[span.key]
-    key = CandidatesKey(i, options.candidates)
+    key: CandidatesKey = (i, options.candidates)
     kept = cache.candidates.get(key)
     if kept is None:
         kept = cache.candidates.keep(key, _entry_candidates(lex, cache, i, vector, options))

@@ -23,13 +23,13 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 from widen.decisions.decision import DecisionSet, PhraseDecisions
-from widen.expansion.cache import AloneKey, Answer, CandidatesKey, DecidedKey, ExpansionCache, SpanKey, SpanOutcome
+from widen.expansion.cache import AloneKey, Answer, DecidedKey, ExpansionCache, SpanKey, SpanOutcome
 from widen.expansion.candidates import find_candidates, span_vector
 from widen.expansion.filters import QueryContext, Situation, decide, query_contexts, sift
 from widen.expansion.lexicon import Lexicon
 from widen.expansion.options import ExpansionOptions
 from widen.expansion.query_text import JOBS, merged_text, render, segments_baseline, segments_words
-from widen.expansion.result import Clause, Dropped, Expansion, ExpansionResult, ModelInfo, Segment
+from widen.expansion.result import Clause, Dropped, Expansion, ExpansionResult, Segment
 from widen.expansion.segment import Span, segment_query
 from widen.expansion.weights import corrected, correction, pattern_spellings, pinned, weighed, within_budget
 from widen.text.forms import PHRASE_JOINER, phrase_of_key, spelling_key
@@ -95,7 +95,7 @@ def _span_outcome(
     said = decisions.get(span.typed or phrase_of_key(span.key))
     if span.parts or context.head or said.blocked or said.pinned or said.exempt:
         return _work_out(lex, cache, span, said, options, explain, context)
-    key = SpanKey(lex.index[span.key], options, explain)
+    key: SpanKey = (lex.index[span.key], options, explain)
     known = cache.spans.get(key)
     if known is None:
         known = cache.spans.keep(key, _work_out(lex, cache, span, said, options, explain, context))
@@ -123,7 +123,7 @@ def _work_out(
     stop = frozenset(options.noise_words)
     pins = pinned(lex, said, span_vector(lex, span))
     if found.source == "model":  # what the bundle and the options alone decide: kept once
-        key = DecidedKey(lex.index[span.key], options)
+        key: DecidedKey = (lex.index[span.key], options)
         decided = cache.decided.get(key)
         if decided is None:
             decided = cache.decided.keep(key, decide(lex, cache, text, found.candidates, found.own_share, options))
@@ -207,10 +207,9 @@ def _answer(
 
 
 def _result(lex: Lexicon, cache: ExpansionCache, query: str, answer: Answer) -> ExpansionResult:
-    model = cache.model_info(lambda: ModelInfo.model_construct(version=lex.version, created_at=lex.created_at))
     return ExpansionResult.built(
         query=query,
-        model=model,
+        model=cache.model_info,
         segments=answer.segments,
         clauses=answer.clauses,
         query_text=answer.query_text,
@@ -232,7 +231,7 @@ def _alone(
     said = decisions.get(phrase_of_key(span.key))
     if said.blocked or said.pinned or said.exempt:
         return None
-    return AloneKey(lex.index[span.key], options)
+    return (lex.index[span.key], options)
 
 
 def prepare(lex: Lexicon, cache: ExpansionCache, options: ExpansionOptions) -> int:
@@ -247,6 +246,6 @@ def prepare(lex: Lexicon, cache: ExpansionCache, options: ExpansionOptions) -> i
         _span_outcome(lex, cache, span, none, options, False, alone)
         # And the whole answer to the entry typed alone, where it segments as itself.
         expand(lex, none, phrase_of_key(key), options, cache=cache)
-        cache.candidates.drop(CandidatesKey(i, options.candidates))
-        cache.decided.drop(DecidedKey(i, options))
+        cache.candidates.drop((i, options.candidates))
+        cache.decided.drop((i, options))
     return len(lex.keys)

@@ -152,12 +152,20 @@ _FIXED_RUNS = tuple(r for r in _RUNS if isinstance(r, tuple))
 
 @dataclass(frozen=True)
 class Decided:
-    """What the fixed filters decide of one candidate: its facts, its relation hint, and per fixed run
-    the first reason that holds (None: none does)."""
+    """What the fixed filters decide of one candidate: its facts, its relation hint, per fixed run the
+    first reason that holds (None: none does), and the first of those (`first`)."""
 
     facts: EntryFacts
     relation: str
     reasons: tuple[DropReason | None, ...]
+    first: DropReason | None
+
+
+def _first_that_holds(run: tuple[Filter, ...], c: Candidate, e: EntryFacts, g: Ground) -> DropReason | None:
+    for f in run:
+        if f.fixed is not None and f.fixed(c, e, g):
+            return f.reason
+    return None
 
 
 def ground(lex: Lexicon, cache: ExpansionCache, text: str, own_share: float, options: ExpansionOptions) -> Ground:
@@ -192,10 +200,9 @@ def decide(
     out = []
     for c in found:
         e = cache.entry(c.entry, stop, options.title_share)
-        reasons = tuple(
-            next((f.reason for f in run if f.fixed is not None and f.fixed(c, e, g)), None) for run in _FIXED_RUNS
-        )
-        out.append(Decided(e, relation_of(c, lex, options), reasons))
+        reasons = tuple(_first_that_holds(run, c, e, g) for run in _FIXED_RUNS)
+        first = next((r for r in reasons if r is not None), None)
+        out.append(Decided(e, relation_of(c, lex, options), reasons, first))
     return tuple(out)
 
 
@@ -213,19 +220,22 @@ def sift(
             fixed += 1
         elif run.applies(s):
             steps.append(run)
+    # When no filter that runs on this call comes before the last fixed run (no decision for the
+    # phrase, no head word), the first fixed reason is the one the list gives: kept from `decide`.
+    last_fixed = max(n for n, step in enumerate(steps) if isinstance(step, int))
+    after: list[Filter] = [step for step in steps[last_fixed:] if not isinstance(step, int)]
+    plain = len(after) == len(steps) - fixed
     kept: list[tuple[Candidate, Decided]] = []
     dropped: list[tuple[Candidate, Decided, DropReason]] = []
     for c, d in zip(found, decided, strict=True):
         if s.kept >= s.slots and not explain:
             break  # nothing more can be kept, and nobody asked why not
-        reason: DropReason | None = None
-        for step in steps:
-            if isinstance(step, int):
-                reason = d.reasons[step]
-            elif step.test(c, d.facts, d.relation, s):  # type: ignore[misc]
-                reason = step.reason
-            if reason is not None:
-                break
+        reason = d.first if plain else _reason(steps, c, d, s)
+        if reason is None and plain:
+            for f in after:
+                if f.test(c, d.facts, d.relation, s):  # type: ignore[misc]
+                    reason = f.reason
+                    break
         if reason is not None:
             if explain:
                 dropped.append((c, d, reason))
@@ -234,6 +244,18 @@ def sift(
         s.taken.add(d.facts.spelling)
         s.kept += 1
     return kept, dropped
+
+
+def _reason(steps: Sequence[int | Filter], c: Candidate, d: Decided, s: Situation) -> DropReason | None:
+    """The first reason in the list that holds for one candidate: a fixed run's kept reason, or a
+    filter tested on this call."""
+    for step in steps:
+        if isinstance(step, int):
+            if d.reasons[step] is not None:
+                return d.reasons[step]
+        elif step.test(c, d.facts, d.relation, s):  # type: ignore[misc]
+            return step.reason
+    return None
 
 
 def query_contexts(lex: Lexicon, spans: Sequence[Span]) -> list[QueryContext]:

@@ -69,6 +69,7 @@ class ExpansionOptions(BaseModel):
 
     model_config = ConfigDict(extra="forbid", frozen=True)
     _key: str | None = PrivateAttr(default=None)
+    _hash: int | None = PrivateAttr(default=None)
 
     @model_validator(mode="before")
     @classmethod
@@ -175,7 +176,12 @@ class ExpansionOptions(BaseModel):
         return key
 
     def __hash__(self) -> int:
-        return hash(self.cache_key())
+        private = self.__pydantic_private__
+        assert private is not None
+        found: int | None = private.get("_hash")
+        if found is None:
+            found = private["_hash"] = hash(self.cache_key())
+        return found
 
     def __eq__(self, other: object) -> bool:
         return self is other or (isinstance(other, ExpansionOptions) and self.cache_key() == other.cache_key())
@@ -184,6 +190,7 @@ class ExpansionOptions(BaseModel):
         copied = super().model_copy(update=update, deep=deep)
         assert copied.__pydantic_private__ is not None
         copied.__pydantic_private__["_key"] = None  # the copy's fields differ: its key is its own
+        copied.__pydantic_private__["_hash"] = None
         return copied
 
     def apart_quantile(self) -> float:

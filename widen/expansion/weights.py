@@ -102,7 +102,7 @@ def pattern_spellings(cache: ExpansionCache, span: Span, options: ExpansionOptio
     if span.kind != "pattern" or span.pattern is None:
         return []
     own = phrase_of_key(span.key)
-    key = SidesKey(span.pattern, own, options)
+    key: SidesKey = (span.pattern, own, options)
     made = cache.sides.get(key)
     if made is None:
         spellings = [s for s in cache.used_spellings(span.pattern, options) if s != own][: options.max_per_segment]
