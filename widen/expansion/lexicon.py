@@ -53,8 +53,10 @@ class Lexicon:
         self.names = bundle.names
         self.phraser = bundle.phraser
         self.max_words = bundle.max_words
-        self.normed = bundle.normed_vectors
-        self.output_vectors = bundle.output_vectors
+        # Plain arrays over the same memory-mapped pages (still shared between workers): indexing a
+        # numpy memmap makes a memmap view each time, which costs more than the lookup itself.
+        self.normed: npt.NDArray[np.float32] = np.asarray(bundle.normed_vectors)
+        self.output_vectors: npt.NDArray[np.float32] = np.asarray(bundle.output_vectors)
         out = np.asarray(bundle.output_vectors, dtype=np.float32)
         norms = np.linalg.norm(out, axis=1)
         norms[norms == 0] = 1.0
