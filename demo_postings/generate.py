@@ -3,8 +3,9 @@ day's query log (`query_log.jsonl`, for replaying traffic: `demo_postings/query_
 
 Two invented boards (docs/scenario.md describes both): `tollbridge`, Tollbridge Valley Jobs, on
 which widen's thresholds and defaults were chosen; and `oxmere`, Oxmere Bay Work, written
-differently, on which they are reported. The output is deterministic: the same arguments give
-byte-identical files.
+differently, on which they are reported. A third, `fellhaven`, Fellhaven Jobs, has real job titles
+and descriptions (ESCO; `demo_postings/fellhaven.py`). The output is deterministic: the same
+arguments give byte-identical files.
 
     python -m demo_postings.generate --board tollbridge --out build/demo --postings 20000 --seed 7
 """
@@ -22,11 +23,13 @@ from typing import Any
 
 from demo_postings import oxmere, tollbridge
 from demo_postings.families import Family
+from demo_postings.fellhaven_board import BOARD_NAME as FELLHAVEN
+from demo_postings.fellhaven_board import generate_fellhaven
 from demo_postings.postings import oxmere_posting, repost, tollbridge_posting
 from demo_postings.queries import labelled_queries
 from demo_postings.query_log import query_log
 
-__all__ = ["generate", "BOARDS", "OPEN_DAYS"]
+__all__ = ["generate", "BOARDS", "BOARD_NAMES", "OPEN_DAYS"]
 
 # Postings stay open about a week on these boards; the dump spans 60 days.
 OPEN_DAYS = 7
@@ -84,6 +87,10 @@ BOARDS = {
 }
 
 
+#: Every board's name, the real-vocabulary board's included.
+BOARD_NAMES = {**{key: board.name for key, board in BOARDS.items()}, "fellhaven": FELLHAVEN}
+
+
 def _write_jsonl(path: Path, rows: Iterable[dict[str, Any]]) -> None:
     """One JSON object a line, UTF-8, fields starting with _ (the generator's own truth) left out."""
     with path.open("w", encoding="utf-8", newline="\n") as fh:
@@ -110,6 +117,9 @@ def generate(
     board: str = "tollbridge",
     log_queries: int = 20000,
 ) -> None:
+    if board == "fellhaven":
+        generate_fellhaven(out, postings, seed, open_days, log_queries, DAY0)
+        return
     chosen = BOARDS[board]
     rng = random.Random(seed)
     # Larger families get more postings, as on a real board.
@@ -155,7 +165,7 @@ def main(argv: list[str] | None = None) -> None:
         epilog="example: python -m demo_postings.generate --board oxmere --out build/oxmere --postings 20000 --seed 7",
     )
     parser.add_argument(
-        "--board", choices=sorted(BOARDS), default="tollbridge", help="which board (default tollbridge)"
+        "--board", choices=sorted(BOARD_NAMES), default="tollbridge", help="which board (default tollbridge)"
     )
     parser.add_argument("--out", type=Path, required=True, help="folder to write into (created if missing)")
     parser.add_argument("--postings", type=int, default=20000, help="number of postings (default 20000)")
@@ -177,7 +187,7 @@ def main(argv: list[str] | None = None) -> None:
     if args.log_queries < 0:
         parser.error("--log-queries must be at least 0")
     generate(args.out, args.postings, args.seed, args.open_days, args.board, args.log_queries)
-    print(f"wrote {args.postings} postings of {BOARDS[args.board].name} to {args.out}")
+    print(f"wrote {args.postings} postings of {BOARD_NAMES[args.board]} to {args.out}")
 
 
 if __name__ == "__main__":

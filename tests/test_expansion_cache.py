@@ -57,7 +57,7 @@ def test_what_is_worked_out_once_never_changes_a_result(trained_store: Path, dem
         base.with_request(min_similarity=0.8),
         base.with_request(strict=True, max=2),
         base.with_request(match="job", places="field"),
-        ExpansionOptions.model_validate({**base.model_dump(), "chance_neighbours": 5.0, "related_duties": 0.5}),
+        ExpansionOptions.model_validate({**base.model_dump(), "chance_neighbours": 5.0, "related_duties": 0.8}),
     ]
     answers: dict[tuple[int, str, int, bool], str] = {}
     for _ in range(2):  # the second round is served from what the first kept

@@ -229,7 +229,8 @@ def test_a_head_word_beside_another_job_word_is_not_expanded_to_a_narrower_job(t
     alone = tollbridge.expand("chef", DEFAULTS)
     narrower = {e.phrase for e in alone.segments[0].expansions if "chef" in e.phrase.split(" ")}
     assert narrower, "'chef' alone keeps no narrower chef title: nothing to check"
-    both = tollbridge.expand("kitchen chef", DEFAULTS, explain=True)
+    # Two job words side by side, each on its own (compose_runs = 0; by default they are one composed span).
+    both = tollbridge.expand("kitchen chef", DEFAULTS.model_copy(update={"compose_runs": 0}), explain=True)
     head = next(s for s in both.segments if s.text == "chef")
     # "kitchen" names no chef title: every narrower title of "chef" is dropped for the whole query.
     assert not {e.phrase for e in head.expansions} & narrower
@@ -274,3 +275,12 @@ def test_the_whole_query_never_finds_fewer_postings_than_the_bag_of_words(
         result = oxmere.expand(q, DEFAULTS.with_request(places="field"))
         words = oxmere_index.matching(words_text(result))
         assert words <= oxmere_index.matching(result.full_query), q
+
+
+def test_job_words_that_name_no_known_title_are_read_as_one_title(tollbridge: Opened) -> None:
+    """A run of job words the bundle knows no title for ("kitchen chef") is one span, searched by its
+    words: what it keeps are titles with its head word (a chef), never another kind of job."""
+    (span,) = tollbridge.expand("kitchen chef", DEFAULTS).segments
+    assert span.kind == "unknown" and span.text == "kitchen chef"
+    assert span.expansions and all(e.phrase.split(" ")[-1] == "chef" for e in span.expansions)
+    assert tollbridge.expand("kitchen chef", DEFAULTS).query_text.startswith('+("kitchen chef"^1 OR ')

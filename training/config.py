@@ -103,8 +103,11 @@ class NeighboursSection(_Section):
 class DutiesSection(_Section):
     """The duties a title comes with: what the descriptions of the postings with that title say."""
 
-    # A title named by fewer postings gets no duties profile (too few to say what the job is).
-    min_postings: int = Field(default=5, ge=2)
+    # A title named by fewer postings gets no duties profile. How much one profile shows is measured
+    # per bundle at each size (`training.duties`), so even a title seen once is judged by what it can.
+    min_postings: int = Field(default=1, ge=1)
+    # The longest title (in words, decorations taken out) that gets a profile of its own.
+    title_max_words: int = Field(default=8, ge=1, le=20)
     top_k: int = Field(default=50, ge=1, le=1000)
     block_rows: int = Field(default=1024, ge=1)
 

@@ -1,26 +1,31 @@
-"""The duties a title comes with, and which titles come with the same duties.
+"""The duties a title comes with, which titles come with the same duties, and how sure that can be.
 
-Two names for one job are posted with the same duties, whatever words surround the names; a
-close but different job shares some of them; another job, none. For every title entry named by
-at least `min_postings` postings, its profile is what the descriptions of those postings say:
-their entries (the title's own words left out, so "care assistant" and "teaching assistant" are
-not alike for sharing "assistant"), each weighted by log(1 + count) times the inverse of how
-many titles' profiles hold it. That second weight is the usual TF-IDF idea (Salton & Buckley
-1988, "Term-weighting approaches in automatic text retrieval") applied to titles instead of
-postings: boilerplate pasted under every job weighs nothing, a job's own duties weigh most.
-Profiles are compared by cosine.
+Two names for one job are posted with the same duties, whatever words surround the names; a close
+but different job shares some of them; another job, none. Every title the dump's postings name
+(`training.titles.title_cores`, one word or more) that at least `min_postings` postings name gets a
+profile: what the descriptions of those postings say, their entries (the title's own words left out,
+so "care assistant" and "teaching assistant" are not alike for sharing "assistant"), each weighted
+by log(1 + count) times the inverse of how many titles' profiles hold it. That second weight is the
+TF-IDF idea (Salton & Buckley 1988, "Term-weighting approaches in automatic text retrieval") applied
+to titles instead of postings: boilerplate pasted under every job weighs nothing. Profiles are
+compared by cosine.
 
-The bundle's own scale for "same job" comes from the same data: each title's postings are split
-in two halves by posting number, and the median cosine of a title's two halves says how alike
-two profiles of one job look in this dump (`split_half`). The relation hint compares a pair of
-titles with that, so no threshold depends on how a board happens to write.
+How alike is alike enough depends on how many postings a profile was made from: two postings of
+one job share less than two hundred do. The bundle measures it on its own dump, for profiles of 1,
+2, 4, 8 and 16 postings (`SIZES`): for titles named often enough, two disjoint samples of those
+sizes give the cosine of one job with itself (`same_job`, the median), and samples of two different
+titles the cosine two jobs reach by chance (`chance`, high quantiles). The relation hint and the
+filters read both at the sizes of the two titles they compare, so a title seen once is judged by
+what one posting can show, and a neighbour that no more alike than chance is dropped. The median
+cosine of a frequent title's two halves (`split_half`) is the same-job scale at large sizes.
 """
 
 from __future__ import annotations
 
 import math
+import random
 from collections import Counter
-from collections.abc import Callable, Mapping
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -30,18 +35,28 @@ import numpy.typing as npt
 from scipy import sparse
 
 from training.config import DutiesSection
+from training.titles import fragments
 from widen.model.neighbours import top_k_rows
 from widen.text.forms import PHRASE_JOINER
 
-__all__ = ["DutyTable", "duty_table"]
+__all__ = ["TitleTable", "title_table", "SIZES"]
+
+#: The profile sizes (postings) the same-job and chance cosines are measured at.
+SIZES = (1, 2, 4, 8, 16)
+#: Titles named by at least this many postings give the split-half scale.
+SPLIT_HALF_POSTINGS = 20
+#: Postings of a title kept to draw samples from, and titles sampled for each pair of sizes.
+_KEPT, _SAMPLED = 2 * SIZES[-1], 300
+CHANCE_QUANTILES = (0.9, 0.95, 0.99)
 
 
 @dataclass
-class DutyTable:
-    """Per vocabulary entry its row in the table (-1: no profile); per row the `top_k` titles with the
-    most alike duties (vocabulary ids) and their cosines; and what the profiles were made of."""
+class TitleTable:
+    """Every title with a profile (keys, sorted), how many postings name it, its `top_k` titles with the
+    most alike duties (rows of this table) and their cosines; and what the profiles were made of."""
 
-    rows: npt.NDArray[np.int32]
+    keys: list[str]
+    counts: list[int]
     index: npt.NDArray[np.int32]
     similarity: npt.NDArray[np.float32]
     stats: dict[str, Any] = field(default_factory=dict)
@@ -49,6 +64,14 @@ class DutyTable:
 
 def _words(entries: str) -> list[str]:
     return entries.split() if entries else []
+
+
+def _lines(postings: Path) -> Any:
+    with postings.open(encoding="utf-8") as fh:
+        for line in fh:
+            head, _, rest = line.rstrip("\n").partition("\t")
+            body, _, names = rest.partition("\t")
+            yield head, body, names
 
 
 def _profiles(bags: list[Counter[int]], idf: npt.NDArray[np.float64], width: int) -> sparse.csr_matrix:
@@ -65,62 +88,150 @@ def _profiles(bags: list[Counter[int]], idf: npt.NDArray[np.float64], width: int
     return sparse.csr_matrix(sparse.diags(1.0 / norms) @ matrix)
 
 
-def duty_table(
-    postings: Path, vocabulary: Mapping[str, int], is_title: Callable[[str], bool], config: DutiesSection
-) -> DutyTable:
-    """Read the scratch file of postings (`title entries<TAB>description entries` a line) twice: once
-    to count the postings of each title, once to gather their descriptions."""
-    size = len(vocabulary)
-    named: Counter[str] = Counter()
-    with postings.open(encoding="utf-8") as fh:
-        for line in fh:
-            head = line.split("\t", 1)[0]
-            named.update({t for t in _words(head) if t in vocabulary and is_title(t)})
-    titles = sorted(t for t, n in named.items() if n >= config.min_postings)
-    row_of = {t: i for i, t in enumerate(titles)}
-    halves: list[list[Counter[int]]] = [[Counter() for _ in titles] for _ in range(2)]
-    with postings.open(encoding="utf-8") as fh:
-        for number, line in enumerate(fh):
-            head, _, body = line.rstrip("\n").partition("\t")
-            mine = [row_of[t] for t in set(_words(head)) if t in row_of]
-            if not mine:
+@dataclass
+class _Gathered:
+    """What the second read of the postings gathers: each title's whole bag, its two halves, and a
+    sample of its postings' own bags (for the size calibration)."""
+
+    whole: list[Counter[int]]
+    halves: list[list[Counter[int]]]
+    kept: list[list[Counter[int]]]
+
+
+def _gather(postings: Path, row_of: Mapping[str, int], vocabulary: Mapping[str, int], seed: int) -> _Gathered:
+    size = len(row_of)
+    whole: list[Counter[int]] = [Counter() for _ in range(size)]
+    halves: list[list[Counter[int]]] = [[Counter() for _ in range(size)] for _ in range(2)]
+    kept: list[list[Counter[int]]] = [[] for _ in range(size)]
+    seen = [0] * size
+    rng = random.Random(seed)
+    for number, (head, body, names) in enumerate(_lines(postings)):
+        mine = [row_of[t] for t in set(_words(names)) if t in row_of]
+        if not mine:
+            continue
+        own = {w for t in _words(head) + _words(names) for w in t.split(PHRASE_JOINER)}
+        said = Counter(
+            vocabulary[e] for e in _words(body) if e in vocabulary and not own.intersection(e.split(PHRASE_JOINER))
+        )
+        for r in mine:
+            whole[r].update(said)
+            halves[number % 2][r].update(said)
+            seen[r] += 1
+            if len(kept[r]) < _KEPT:  # a reservoir sample of the title's postings
+                kept[r].append(said)
+            elif (j := rng.randrange(seen[r])) < _KEPT:
+                kept[r][j] = said
+    return _Gathered(whole, halves, kept)
+
+
+def _sample_profiles(
+    kept: list[list[Counter[int]]], picks: list[tuple[int, list[int]]], idf: npt.NDArray[np.float64], width: int
+) -> sparse.csr_matrix:
+    """One profile a pick: the sum of the chosen postings' bags of one title, weighted as `_profiles` does."""
+    bags = []
+    for t, chosen in picks:
+        bag: Counter[int] = Counter()
+        for n in chosen:
+            bag.update(kept[t][n])
+        bags.append(bag)
+    return _profiles(bags, idf, width)
+
+
+def _calibration(
+    kept: list[list[Counter[int]]], full: sparse.csr_matrix, idf: npt.NDArray[np.float64], apart: float, seed: int
+) -> dict[str, Any]:
+    """The same-job median and the chance quantiles of the profile cosine, for each pair of sizes. Chance
+    is measured on pairs of titles whose whole profiles are less alike than `apart` (two names of one
+    job are not two different jobs, however different their names)."""
+    rng = random.Random(seed)
+    width = full.shape[1]
+    same: list[list[float | None]] = []
+    chance: dict[str, list[list[float | None]]] = {str(q): [] for q in CHANCE_QUANTILES}
+    for a in SIZES:
+        same.append([])
+        for q in chance:
+            chance[q].append([])
+        for b in SIZES:
+            if b < a:  # the measure is symmetric in the two sizes
+                same[-1].append(same[SIZES.index(b)][SIZES.index(a)])
+                for q in chance:
+                    chance[q][-1].append(chance[q][SIZES.index(b)][SIZES.index(a)])
                 continue
-            own = {w for t in _words(head) for w in t.split(PHRASE_JOINER)}
-            said = Counter(
-                vocabulary[e] for e in _words(body) if e in vocabulary and not own.intersection(e.split(PHRASE_JOINER))
+            deep = [t for t, bags in enumerate(kept) if len(bags) >= a + b]
+            rng.shuffle(deep)
+            left, right = [], []
+            for t in deep[:_SAMPLED]:
+                chosen = rng.sample(range(len(kept[t])), a + b)
+                left.append((t, chosen[:a]))
+                right.append((t, chosen[a:]))
+            own = np.asarray(
+                _sample_profiles(kept, left, idf, width).multiply(_sample_profiles(kept, right, idf, width)).sum(axis=1)
+            ).ravel()
+            same[-1].append(round(float(np.median(own)), 4) if len(own) >= 10 else None)
+            xs = [t for t, bags in enumerate(kept) if len(bags) >= a]
+            ys = [t for t, bags in enumerate(kept) if len(bags) >= b]
+            drawn = [(rng.choice(xs), rng.choice(ys)) for _ in range(_SAMPLED * 4)] if len(xs) > 1 < len(ys) else []
+            drawn = [(x, y) for x, y in drawn if x != y]
+            close = (
+                np.asarray(full[[x for x, _ in drawn]].multiply(full[[y for _, y in drawn]]).sum(axis=1)).ravel()
+                if drawn
+                else np.zeros(0)
             )
-            for r in mine:
-                halves[number % 2][r].update(said)
-    rows = np.full(size, -1, dtype=np.int32)
-    k = min(config.top_k, max(len(titles) - 1, 0))
-    empty = DutyTable(rows, np.zeros((0, 0), np.int32), np.zeros((0, 0), np.float32), {"titles": 0})
-    if len(titles) < 2:
+            pairs = [
+                ((x, rng.sample(range(len(kept[x])), a)), (y, rng.sample(range(len(kept[y])), b)))
+                for (x, y), cos in zip(drawn, close.tolist(), strict=True)
+                if cos < apart
+            ]
+            if len(pairs) >= 30:
+                one = _sample_profiles(kept, [p for p, _ in pairs], idf, width)
+                two = _sample_profiles(kept, [q for _, q in pairs], idf, width)
+                by_chance = np.asarray(one.multiply(two).sum(axis=1)).ravel()
+            for q in chance:
+                chance[q][-1].append(round(float(np.quantile(by_chance, float(q))), 4) if len(pairs) >= 30 else None)
+    return {"sizes": list(SIZES), "same_job": same, "chance": chance}
+
+
+def title_table(
+    postings: Path, vocabulary: Mapping[str, int], config: DutiesSection, related: float = 0.3, seed: int = 1
+) -> TitleTable:
+    """Read the scratch file of postings (`title entries<TAB>description entries<TAB>titles named` a line)
+    twice: once to count the postings naming each title, once to gather their descriptions. `related`
+    is the share of the split-half cosine below which two whole profiles are two different jobs (the
+    expansion option `related_duties`), for the chance measure."""
+    named: Counter[str] = Counter()
+    for _, _, names in _lines(postings):
+        named.update(set(_words(names)))
+    pieces = fragments(named)
+    keys = sorted(t for t, n in named.items() if n >= config.min_postings and t not in pieces)
+    empty = TitleTable(keys[:0], [], np.zeros((0, 0), np.int32), np.zeros((0, 0), np.float32), {"titles": 0})
+    if len(keys) < 2:
         return empty
-    whole = [a + b for a, b in zip(halves[0], halves[1], strict=True)]
-    df = np.zeros(size, dtype=np.float64)
-    for bag in whole:
+    row_of = {t: i for i, t in enumerate(keys)}
+    gathered = _gather(postings, row_of, vocabulary, seed)
+    width = len(vocabulary)
+    df = np.zeros(width, dtype=np.float64)
+    for bag in gathered.whole:
         df[list(bag)] += 1
-    idf = np.where(df > 0, np.log(len(titles) / np.maximum(df, 1)), 0.0)
-    matrix = _profiles(whole, idf, size)
-    ids = np.array([vocabulary[t] for t in titles], dtype=np.int32)
-    rows[ids] = np.arange(len(titles), dtype=np.int32)
-    index = np.zeros((len(titles), k), dtype=np.int32)
-    similarity = np.zeros((len(titles), k), dtype=np.float32)
-    for start in range(0, len(titles), config.block_rows):
-        stop = min(start + config.block_rows, len(titles))
+    idf = np.where(df > 0, np.log(len(keys) / np.maximum(df, 1)), 0.0)
+    matrix = _profiles(gathered.whole, idf, width)
+    k = min(config.top_k, len(keys) - 1)
+    index = np.zeros((len(keys), k), dtype=np.int32)
+    similarity = np.zeros((len(keys), k), dtype=np.float32)
+    for start in range(0, len(keys), config.block_rows):
+        stop = min(start + config.block_rows, len(keys))
         sims = (matrix[start:stop] @ matrix.T).toarray().astype(np.float32)
         sims[np.arange(stop - start), np.arange(start, stop)] = -np.inf
-        idx, val = top_k_rows(sims, k)
-        index[start:stop] = ids[idx]
-        similarity[start:stop] = val
-    # The bundle's own scale of "same job": a title's two halves, for titles named often enough.
-    enough = [r for r, t in enumerate(titles) if named[t] >= 4 * config.min_postings]
-    a, b = _profiles([halves[0][r] for r in enough], idf, size), _profiles([halves[1][r] for r in enough], idf, size)
+        index[start:stop], similarity[start:stop] = top_k_rows(sims, k)
+    enough = [r for r, t in enumerate(keys) if named[t] >= SPLIT_HALF_POSTINGS]
+    a = _profiles([gathered.halves[0][r] for r in enough], idf, width)
+    b = _profiles([gathered.halves[1][r] for r in enough], idf, width)
     split = np.asarray(a.multiply(b).sum(axis=1)).ravel()
-    stats = {
-        "titles": len(titles),
+    split_half = round(float(np.median(split)), 4) if len(enough) else None
+    stats: dict[str, Any] = {
+        "titles": len(keys),
         "min_postings": config.min_postings,
-        "split_half": round(float(np.median(split)), 4) if len(enough) else None,
+        "split_half": split_half,
         "split_half_titles": len(enough),
+        **_calibration(gathered.kept, matrix, idf, related * (split_half or 1.0), seed),
     }
-    return DutyTable(rows, index, similarity, stats)
+    return TitleTable(keys, [named[t] for t in keys], index, similarity, stats)

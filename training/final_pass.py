@@ -9,6 +9,7 @@ word would otherwise go without a vector.
 
 from __future__ import annotations
 
+import os
 from collections import Counter
 from pathlib import Path
 
@@ -20,10 +21,13 @@ from widen.text.tokenize import in_windows
 __all__ = ["final_pass", "keep_words"]
 
 
-def final_pass(phraser: Phraser, scratch: Scratch, phrased: Path, postings: Path) -> tuple[Counter[str], Counter[str]]:
+def final_pass(
+    phraser: Phraser, scratch: Scratch, phrased: Path, postings: Path, names: Path | None = None
+) -> tuple[Counter[str], Counter[str]]:
     """Apply the last phrase pass and the title pass; write one line a block for skip-gram, whose
     windows then span the sentences of a paragraph or list item (numbers and lone letters left out),
-    and one line a posting of its title entries and description entries, for the duties. Returns the
+    and one line a posting of its title entries, description entries and the titles it names (read
+    from `names`, one line a posting in the scratch corpus's order), for the duties. Returns the
     count of every entry written for skip-gram, and of the entries used in titles."""
     counts: Counter[str] = Counter()
     in_titles: Counter[str] = Counter()
@@ -32,10 +36,11 @@ def final_pass(phraser: Phraser, scratch: Scratch, phrased: Path, postings: Path
     block: list[str] = []
     title: list[str] = []
     said: list[str] = []
+    named: list[str] = [""]
 
     def posting_done() -> None:
         if title or said:
-            out.write(" ".join(title) + "\t" + " ".join(said) + "\n")
+            out.write(" ".join(title) + "\t" + " ".join(said) + "\t" + named[0] + "\n")
         title.clear()
         said.clear()
 
@@ -43,6 +48,7 @@ def final_pass(phraser: Phraser, scratch: Scratch, phrased: Path, postings: Path
         scratch.path.open(encoding="utf-8") as src,
         phrased.open("w", encoding="utf-8") as dst,
         postings.open("w", encoding="utf-8") as out,
+        names.open(encoding="utf-8") if names is not None else open(os.devnull, encoding="utf-8") as titled,
     ):
         for line in src:
             entries = last(line[2:].split())
@@ -51,6 +57,7 @@ def final_pass(phraser: Phraser, scratch: Scratch, phrased: Path, postings: Path
                 block = []
             if line[0] == "P":
                 posting_done()
+                named[0] = titled.readline().rstrip("\n")
                 continue
             kept = [e for e in entries if in_windows(e)]
             if line[0] in "Tt":

@@ -65,7 +65,8 @@ class _Tokenised:
     tokens: int
     lines: str
     protected: tuple[tuple[str, str, str], ...]  # (key, field, value as written)
-    cores: tuple[str, ...]
+    cores: tuple[str, ...]  # title cores of two words or more, for phrase entries
+    names: tuple[str, ...]  # the titles the posting names, one word or more, for the title table
 
 
 @dataclass(frozen=True)
@@ -74,6 +75,7 @@ class _TitleRule:
 
     drop: frozenset[str]
     longest: int
+    longest_name: int
 
 
 def _tokenise_batch(batch: list[Posting], has_title: bool, rule: _TitleRule) -> list[_Tokenised]:
@@ -91,10 +93,12 @@ def _tokenise_batch(batch: list[Posting], has_title: bool, rule: _TitleRule) -> 
         key = hashlib.blake2b("\x1f".join(flat).encode("utf-8"), digest_size=12).digest()
         protected = tuple((k, f, v) for f, v in posting.protected if (k := key_of_text(v)))
         cores: tuple[str, ...] = ()
+        names: tuple[str, ...] = ()
         if has_title and posting.texts:
             own = [v for _, v in posting.protected]
             cores = tuple(title_cores(posting.texts[0], rule.drop, own, rule.longest))
-        out.append(_Tokenised(posting.line, key, len(flat), "".join(rows), protected, cores))
+            names = tuple(dict.fromkeys(title_cores(posting.texts[0], rule.drop, own, rule.longest_name, 1)))
+        out.append(_Tokenised(posting.line, key, len(flat), "".join(rows), protected, cores, names))
     return out
 
 
@@ -125,6 +129,7 @@ class FirstPass:
         out: IO[str],
         drop: frozenset[str],
         longest: int,
+        longest_name: int = 8,
     ) -> None:
         self.corpus, self.scratch, self.workers, self.out = corpus, scratch, workers, out
         self.used = self.duplicates = self.tokens = 0
@@ -133,7 +138,9 @@ class FirstPass:
         #: How many postings name each title core.
         self.cores: Counter[str] = Counter()
         self.has_title = bool(corpus.config.fields) and corpus.config.fields[0] == "title"
-        self.rule = _TitleRule(drop, longest)
+        self.rule = _TitleRule(drop, longest, longest_name)
+        #: One line a posting written to the scratch corpus, in the same order: the titles it names.
+        self.names_path = scratch.with_name("names.txt")
 
     def _tokenised(self) -> Iterator[_Tokenised]:
         if self.workers <= 1:
@@ -157,6 +164,7 @@ class FirstPass:
         with (
             Progress("read and tokenise", unit="postings", stream=self.out) as bar,
             self.scratch.open("w", encoding="utf-8") as fh,
+            self.names_path.open("w", encoding="utf-8") as names,
         ):
             for done in self._tokenised():
                 bar.update()
@@ -170,6 +178,7 @@ class FirstPass:
                 self.used += 1
                 self.tokens += done.tokens
                 fh.write(done.lines)
+                names.write(" ".join(done.names) + "\n")
                 for row in done.lines.splitlines():
                     yield row[2:].split()
                 for key, field, value in done.protected:

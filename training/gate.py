@@ -71,8 +71,10 @@ def _learned(lex: Lexicon, cache: ExpansionCache, a: str, b: str, top_k: int, fl
         return True
     if lex.split_half is None:
         return False
-    similarity = cache.duty_neighbours(ia).get(ib)
-    return similarity is not None and similarity >= lex.options.equivalent_duties * lex.split_half
+    ka, kb = lex.keys[ia], lex.keys[ib]
+    similarity = cache.duty_neighbours(ka).get(kb)
+    same = lex.same_job(lex.postings_of(ka), lex.postings_of(kb))
+    return similarity is not None and similarity >= lex.options.equivalent_duties * same
 
 
 def score_pairs(lex: Lexicon, pairs: list[Pair], config: GateSection) -> dict[str, Any]:

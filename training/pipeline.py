@@ -145,12 +145,12 @@ def _run(
     with clock.stage("read, tokenise and phrases"):
         phrased = stages.read_and_phrase(corpus, scratch, config, out)
     with clock.stage("final pass"):
-        counts, in_titles = final_pass(phrased.phraser, scratch, phrased_path, postings)
+        counts, in_titles = final_pass(phrased.phraser, scratch, phrased_path, postings, phrased.first.names_path)
         keep_words(phrased_path, counts, config.embedding.min_count)
     with clock.stage("skip-gram"):
         model = fit_skipgram(phrased_path, config, out)
     with clock.stage("titles and duties"):
-        duties = stages.titles_and_duties(model, phrased, in_titles, postings, config)
+        duties = stages.titles_and_duties(model, postings, config)
     shutil.rmtree(scratch_dir)  # the scratch corpus is not part of the bundle
     with clock.stage("save"):
         normed = stages.write_files(writer, model, in_titles, phrased, duties, config)

@@ -26,13 +26,12 @@ from gensim.models import Word2Vec
 
 from training.config import TrainConfig
 from training.corpus import PostingCorpus
-from training.duties import DutyTable, duty_table
+from training.duties import TitleTable, title_table
 from training.first_pass import FirstPass, Scratch
 from training.gate import GateResult, Pair, decide, score_pairs, search_impact
 from training.phrases import learn_phrases, phrase_filter
 from training.progress import Progress
 from training.skipgram import structure_problems
-from training.titles import title_test
 from widen.decisions.decision import DecisionSet
 from widen.errors import BadInput
 from widen.expansion.lexicon import Lexicon
@@ -76,7 +75,15 @@ def read_and_phrase(corpus: PostingCorpus, scratch: Scratch, config: TrainConfig
     # A title core leaves out what decorates a title: patterns, noise words, and modifiers too
     # ("trainee staff nurse" names a staff nurse; mining still forms "senior carer" on its own).
     decoration = apart | frozenset(config.expansion.modifiers)
-    first = FirstPass(corpus, scratch.path, config.corpus.workers, out, decoration, config.phrases.title_max_words)
+    first = FirstPass(
+        corpus,
+        scratch.path,
+        config.corpus.workers,
+        out,
+        decoration,
+        config.phrases.title_max_words,
+        config.duties.title_max_words,
+    )
     keep = phrase_filter(lambda: first.protected.keys(), apart)
     passes = max(config.phrases.max_words - 1, 0)
     with Progress("phrase passes", total=passes, unit="passes", stream=out, every=0) as bar:
@@ -86,13 +93,11 @@ def read_and_phrase(corpus: PostingCorpus, scratch: Scratch, config: TrainConfig
     return Phrased(first, Phraser(mined.passes, titles), table, titles)
 
 
-def titles_and_duties(
-    model: Word2Vec, phrased: Phrased, in_titles: Counter[str], postings: Path, config: TrainConfig
-) -> DutyTable:
-    """Which entries are titles (`training.titles.title_test`), and their duties profiles."""
-    decoration = config.expansion.not_inside_phrases() | frozenset(config.expansion.modifiers)
-    is_title = title_test(phrased.first.protected, in_titles, decoration, frozenset(config.expansion.modifiers))
-    return duty_table(postings, model.wv.key_to_index, is_title, config.duties)
+def titles_and_duties(model: Word2Vec, postings: Path, config: TrainConfig) -> TitleTable:
+    """Every title the postings name with its duties profile, its titles with alike duties, and how
+    alike one job's profiles are at each size in this dump (`training.duties`)."""
+    related = config.expansion.related_duties
+    return title_table(postings, model.wv.key_to_index, config.duties, related, seed=config.embedding.seed)
 
 
 def write_files(
@@ -100,7 +105,7 @@ def write_files(
     model: Word2Vec,
     in_titles: Counter[str],
     phrased: Phrased,
-    duties: DutyTable,
+    duties: TitleTable,
     config: TrainConfig,
 ) -> npt.NDArray[np.float32]:
     """Every file of the bundle but the neighbour table and the manifest; returns the unit vectors."""
@@ -110,7 +115,7 @@ def write_files(
     writer.entry_stats([[wv.get_vecattr(k, "count"), in_titles.get(k, 0)] for k in wv.index_to_key])
     writer.phrases(phrased.phraser, phrased.table)
     writer.protected(config.corpus.protected_fields, phrased.first.protected)
-    writer.duties(duties.rows, duties.index, duties.similarity)
+    writer.titles(duties.keys, duties.counts, duties.index, duties.similarity)
     return normed
 
 
@@ -153,7 +158,7 @@ def judge(
 
 def draft_manifest(
     version: str, created_at: str, corpus_path: Path, corpus_sha: str, corpus: PostingCorpus, phrased: Phrased,
-    model: Word2Vec, duties: DutyTable, config: TrainConfig,
+    model: Word2Vec, duties: TitleTable, config: TrainConfig,
 ) -> Manifest:  # fmt: skip
     """The manifest as far as it is known before the gate: what the bundle holds and how it was made."""
     first = phrased.first

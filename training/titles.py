@@ -13,14 +13,14 @@ from __future__ import annotations
 
 import re
 from collections import Counter
-from collections.abc import Callable, Collection, Iterable
+from collections.abc import Iterable
 
 from widen.text.forms import PHRASE_JOINER
 from widen.text.tokenize import is_number, normalise, tokens
 
-__all__ = ["title_cores", "is_short_number", "fragments", "title_test"]
+__all__ = ["title_cores", "is_short_number", "fragments"]
 
-_SEPARATORS = re.compile(r"\s[-\u2013\u2014|/~]\s|[|()\[\]{}!?*:;,]")
+_SEPARATORS = re.compile(r"\s[-\u2013\u2014|/~]\s|[|()\[\]{}!?*:;]")
 
 
 def is_short_number(token: str) -> bool:
@@ -28,11 +28,12 @@ def is_short_number(token: str) -> bool:
     return token.isdigit() and len(token) <= 2
 
 
-def title_cores(title: str, drop: frozenset[str], own: Iterable[str], longest: int) -> list[str]:
+def title_cores(title: str, drop: frozenset[str], own: Iterable[str], longest: int, shortest: int = 2) -> list[str]:
     """The cores of one title as vocabulary keys. Parameters: the title as written; `drop`, words that
     are never the job (patterns, noise, modifiers); `own`, the posting's place and employer as
-    written; `longest`, the most words a core may have. A core is a run of the words left; a short
-    number inside a run stays in it ("class 1 driver").
+    written; `longest` and `shortest`, the most and fewest words a core may have (two at least for a
+    phrase entry; one for the title a posting names: "baker"). A core is a run of the words left; a
+    short number inside a run stays in it ("class 1 driver").
 
     Modifiers stay out of cores: a board that writes "Bank Order Picker" and "Senior Truck Driver"
     for the same jobs would otherwise split each job into one entry per modifier (tried: on the
@@ -44,7 +45,7 @@ def title_cores(title: str, drop: frozenset[str], own: Iterable[str], longest: i
     def emit(run: list[str]) -> None:
         while run and is_short_number(run[-1]):
             run = run[:-1]
-        if 2 <= len(run) <= longest:
+        if shortest <= len(run) <= longest:
             cores.append(PHRASE_JOINER.join(run))
 
     for part in _SEPARATORS.split(normalise(title)):
@@ -60,9 +61,10 @@ def title_cores(title: str, drop: frozenset[str], own: Iterable[str], longest: i
 
 
 def fragments(in_titles: Counter[str], share: float = 0.2) -> set[str]:
-    """Title entries that are mostly a piece of longer titles ("pot" of "pot washer", "nurse" of "staff
-    nurse"): seen alone in fewer titles than `share` of the titles that hold them inside a longer one.
-    Alone, such a piece is a typo's leftover or a shorthand, not a title with duties of its own."""
+    """Titles that are mostly a piece of longer titles ("pot" of "pot washer", "graduate" of "graduate
+    import manager"): seen alone in fewer titles than `share` of the titles that hold them inside a
+    longer one. Alone, such a piece is a leftover of a title cut short, not a title with duties of its
+    own."""
     spans: Counter[str] = Counter()
     for entry, n in in_titles.items():
         words = entry.split(PHRASE_JOINER)
@@ -70,29 +72,3 @@ def fragments(in_titles: Counter[str], share: float = 0.2) -> set[str]:
             for i in range(len(words) - size + 1):
                 spans[PHRASE_JOINER.join(words[i : i + size])] += n
     return {e for e, inside in spans.items() if e in in_titles and in_titles[e] < share * inside}
-
-
-def title_test(
-    protected: Collection[str], in_titles: Counter[str], decoration: frozenset[str], modifiers: frozenset[str]
-) -> Callable[[str], bool]:
-    """Whether a vocabulary entry is a job title: used in titles, not a place or employer name, not a
-    piece of longer titles (`fragments`), not only decoration, no number but a short one inside; a
-    modifier glued to a piece of a title ("trainee_dental") is no title, glued to a whole one
-    ("senior_carer") it is."""
-    pieces = fragments(in_titles)
-
-    def is_title(entry: str) -> bool:
-        words = entry.split(PHRASE_JOINER)
-        lead = next((n for n, w in enumerate(words) if w not in modifiers), len(words))
-        rest = PHRASE_JOINER.join(words[lead:])
-        return (
-            entry not in protected
-            and entry not in pieces
-            and not all(w in decoration for w in words)
-            and not is_number(words[0])
-            and not is_number(words[-1])
-            and all(not is_number(w) or is_short_number(w) for w in words)
-            and (lead == 0 or (rest in in_titles and rest not in pieces))
-        )
-
-    return is_title

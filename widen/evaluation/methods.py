@@ -11,10 +11,12 @@ Each method is a query a front end could send to the same index, for the same se
 - `widen`: the recommended query, widen's `full_query`: `(all_required)^10 OR (query_text) OR
   (words)^0.1`; `widen_alone`, query_text as it is; `bag_of_words_widen`, widen's clauses added to a
   front end's own bag of words, `(bag_of_words)^10 OR (query_text)`;
-- `curated`: a perfect hand-kept list of each job's equivalent titles (the board's truth) in
-  place of widen's neighbours (its corrections and pattern spellings kept), merged the same way:
-  what a team's own synonym list of the same job would give. It is no upper bound on recall:
-  relevance also counts postings of related jobs (grade 1), which such a list leaves out.
+- `curated`: a perfect hand-kept list of each job's equivalent titles (the board's truth), applied
+  the way a search team applies one: the longest listed title found in the words of the query's
+  job segments (whichever way widen split them) is searched with the list's other names for it,
+  and the words it does not cover stay as typed; merged the way widen's query is, the seeker's
+  words as optional terms last included. It stands for the best a hand-kept list of the same job
+  can do; it still leaves out the postings of related jobs (grade 1), which widen may find.
 """
 
 from __future__ import annotations
@@ -27,7 +29,7 @@ import tantivy
 from widen.evaluation.index import SearchIndex
 from widen.evaluation.rm3 import RM3
 from widen.expansion.options import ExpansionOptions
-from widen.expansion.query_text import BASELINE_BOOST, JOBS, baseline_text, merged_text, render
+from widen.expansion.query_text import BASELINE_BOOST, JOBS, baseline_text, merged_text, render, segments_words
 from widen.expansion.result import Clause, ExpansionResult
 from widen.text.forms import phrase_of_text
 from widen.text.tokenize import tokens
@@ -64,14 +66,43 @@ class CuratedList:
             for title in titles:
                 self.synonyms.setdefault(title, []).extend(t for t in titles if t != title)
 
+    def _listed(self, words: list[str]) -> tuple[int, int] | None:
+        """The longest run of `words` the list has a title for, as (start, end); None when none."""
+        for size in range(len(words), 0, -1):
+            for start in range(len(words) - size + 1):
+                if " ".join(words[start : start + size]) in self.synonyms:
+                    return start, start + size
+        return None
+
     def query_text(
         self, result: ExpansionResult, options: ExpansionOptions, names: Mapping[str, tuple[str, str]]
     ) -> str:
-        """widen's query text with each job segment's neighbours replaced by the list's titles for it (of
-        the corrected words, for a mistyped segment); a correction and a pattern's spellings stay."""
+        """The query text a team's synonym list gives: the job's words joined (as corrected, whatever
+        segments widen made of them), the longest listed title among them OR'ed with its other names,
+        the words the title does not cover as typed; places, patterns (with their spellings) and
+        modifiers as widen writes them."""
+        jobs = [s for s, segment in enumerate(result.segments) if segment.kind in JOBS]
+        segments = list(result.segments)
         clauses: list[Clause] = []
+        if jobs:
+            words = " ".join(result.segments[s].corrected or result.segments[s].text for s in jobs).split(" ")
+            first = jobs[0]
+            found = self._listed(words)
+            if found is None:
+                clauses += [Clause(phrase=w, weight=1.0, original=True, segment=first) for w in words]
+            else:
+                start, end = found
+                title = " ".join(words[start:end])
+                clauses.append(Clause(phrase=title, weight=1.0, original=True, segment=first))
+                clauses += [
+                    Clause(phrase=o, weight=self.weight, original=False, segment=first) for o in self.synonyms[title]
+                ]
+                rest = words[:start] + words[end:]
+                for w in rest:  # each uncovered word a required group of its own, as widen writes a segment
+                    segments.append(segments[first].model_copy(update={"text": w}))
+                    clauses.append(Clause(phrase=w, weight=1.0, original=True, segment=len(segments) - 1))
         for s, segment in enumerate(result.segments):
-            if segment.kind == "noise":
+            if segment.kind == "noise" or segment.kind in JOBS:
                 continue
             clauses.append(Clause(phrase=segment.text, weight=1.0, original=True, segment=s))
             clauses += [
@@ -79,12 +110,7 @@ class CuratedList:
                 for e in segment.expansions
                 if e.source in ("spelling", "pattern")
             ]
-            if segment.kind in JOBS:
-                clauses += [
-                    Clause(phrase=other, weight=self.weight, original=False, segment=s)
-                    for other in self.synonyms.get(segment.corrected or segment.text, [])
-                ]
-        return render(clauses, result.segments, options, names)
+        return render(sorted(clauses, key=lambda c: c.segment), segments, options, names)
 
 
 def _merged(index: SearchIndex, first: tantivy.Query | None, then: tantivy.Query | None) -> tantivy.Query | None:
@@ -122,5 +148,6 @@ def method_queries(
         built["rm3"] = rm3.query(index, plain, bow) if plain is not None else None
         built["rm3_merged"] = _merged(index, built["all_required"], built["rm3"])
     if curated is not None and "curated" in methods:
-        built["curated"] = parse(merged_text(exact, curated.query_text(result, options, names or {})))
+        curated_text = curated.query_text(result, options, names or {})
+        built["curated"] = parse(merged_text(exact, curated_text, words=segments_words(result.segments)))
     return {m: built.get(m) for m in methods if m in built}, exact

@@ -28,11 +28,15 @@ from widen.expansion.expand import expand
 from widen.expansion.lexicon import Lexicon
 from widen.expansion.options import ExpansionOptions
 
-__all__ = ["LabelledQuery", "evaluate", "read_queries", "RUN_DEPTH", "KINDS"]
+__all__ = ["LabelledQuery", "evaluate", "read_queries", "RUN_DEPTH", "KINDS", "BANDS", "PARTS"]
 
 RUN_DEPTH = 100
 #: The kinds of seeker query, and the methods whose figures are broken down by kind.
 KINDS = ("title", "town", "noise", "shift", "typo")
+#: Frequency bands of a query's title in the dump (head, torso, tail), where the queries say.
+BANDS = ("head", "torso", "tail")
+#: The parts of a board thresholds were chosen on (`tune`) and figures are reported on (`report`).
+PARTS = ("tune", "report")
 BASELINE = "bag_of_words"
 
 
@@ -63,7 +67,7 @@ def read_queries(path: Path) -> list[LabelledQuery]:
                         str(row.get("family", "")),
                         str(row.get("kind") or "title"),
                         str(row["base"]) if row.get("base") else None,
-                        {k: row[k] for k in ("town", "pattern", "title") if row.get(k)},
+                        {k: row[k] for k in ("town", "pattern", "title", "band", "part", "group") if row.get(k)},
                     )
                 )
             except (ValueError, KeyError, TypeError, AttributeError) as exc:
@@ -122,6 +126,12 @@ def evaluate(
             "p": _significance(rows, chosen),
         },
         "kinds": _by_kind(rows, chosen, summary),
+        "bands": _by(rows, "band", BANDS, summary),
+        "parts": {
+            part: {"queries": len(members), "methods": summary(members), "bands": _by(members, "band", BANDS, summary)}
+            for part in PARTS
+            if (members := [r for r in rows if r.get("part") == part])
+        },
         "per_family": {f: summary(members) for f, members in sorted(families.items())},
         "worst": _worst(rows, chosen),
         "recall_curve": {m: [_mean([r["recall_curve"][m][i] for r in rows]) for i in range(4)] for m in chosen},
@@ -157,6 +167,7 @@ def _run(
         built, exact_text = method_queries(index, q.query, result, options, feedback, curated, chosen, lexicon.names)
         exact = index.matching(exact_text) if exact_text else set()
         row: dict[str, Any] = {"id": q.id, "query": q.query, "family": q.family, "kind": q.kind, "base": q.base}
+        row.update({k: q.extra[k] for k in ("band", "part") if k in q.extra})
         for method in chosen:
             query = built.get(method)
             hits = dict(index.run(query, RUN_DEPTH)) if query is not None else {}
@@ -198,6 +209,18 @@ def _by_kind(
             }
         kinds[kind] = entry
     return kinds
+
+
+def _by(
+    rows: Sequence[dict[str, Any]], key: str, values: Sequence[str], summary: Callable[[Sequence[dict[str, Any]]], Any]
+) -> dict[str, Any]:
+    """The means of the queries that have each value of `key` (band, part), where any do."""
+    out = {}
+    for value in values:
+        members = [r for r in rows if r.get(key) == value]
+        if members:
+            out[value] = {"queries": len(members), "methods": summary(members)}
+    return out
 
 
 def _significance(rows: list[dict[str, Any]], chosen: Sequence[str]) -> dict[str, dict[str, float]]:

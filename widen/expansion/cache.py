@@ -23,6 +23,9 @@ import threading
 from collections.abc import Callable, Hashable
 from typing import TYPE_CHECKING, NamedTuple, TypeVar
 
+import numpy as np
+import numpy.typing as npt
+
 from widen.expansion.lexicon import EntryFacts, Lexicon
 from widen.expansion.options import ExpansionOptions
 from widen.expansion.result import Clause, Dropped, Expansion, ModelInfo, Segment
@@ -49,28 +52,28 @@ K = TypeVar("K", bound=Hashable)
 V = TypeVar("V")
 
 
-#: (entry, how many candidates)
-CandidatesKey = tuple[int, int]
+#: (the span's key, how many candidates)
+CandidatesKey = tuple[str, int]
 
 
-#: (entry, options)
-DecidedKey = tuple[int, ExpansionOptions]
+#: (the span's key, options)
+DecidedKey = tuple[str, ExpansionOptions]
 
 
-#: (entry, options, explain)
-SpanKey = tuple[int, ExpansionOptions, bool]
+#: (the span's key, options, explain)
+SpanKey = tuple[str, ExpansionOptions, bool]
 
 
-#: (entry, options)
-AloneKey = tuple[int, ExpansionOptions]
+#: (the key typed alone, options)
+AloneKey = tuple[str, ExpansionOptions]
 
 
 #: (pattern, the spelling typed, options)
 SidesKey = tuple[str, str, ExpansionOptions]
 
 
-#: (entry, stop words, title share bar)
-EntryKey = tuple[int, frozenset[str], float]
+#: (key, stop words, title share bar)
+EntryKey = tuple[str, frozenset[str], float]
 
 
 class _VocabularyKey(NamedTuple):
@@ -78,6 +81,7 @@ class _VocabularyKey(NamedTuple):
     modifiers: tuple[str, ...]
     patterns: tuple[tuple[str, tuple[str, ...]], ...]
     spelling: bool
+    compose_runs: int
 
 
 class SpanOutcome(NamedTuple):
@@ -128,12 +132,14 @@ class ExpansionCache:
         #: The bundle a result came from: one object per bundle (results are never changed in place).
         self.model_info = ModelInfo.model_construct(version=lexicon.version, created_at=lexicon.created_at)
         self._entries: _Table[EntryKey, EntryFacts] = _Table(1_000_000)
-        self._duties: _Table[int, dict[int, float]] = _Table(1_000_000)
+        self._duties: _Table[str, dict[str, float]] = _Table(1_000_000)
         self._apart: _Table[tuple[float, float], float | None] = _Table(1024)
         self._vocabularies: _Table[_VocabularyKey, Vocabulary] = _Table(1024)
         self._vocabulary_of: _Table[ExpansionOptions, Vocabulary] = _Table(1024)
         self._spellings: _Table[tuple[str, _VocabularyKey], tuple[str, ...]] = _Table(100_000)
+        self._title_vectors: _Table[str, npt.NDArray[np.float32] | None] = _Table(2_000_000)
         self._speller: Speller | None = None
+        self._word_speller: Speller | None = None
         self._lock = threading.Lock()
 
     def forget_answers(self) -> None:
@@ -153,14 +159,24 @@ class ExpansionCache:
 
     # -- derived data, always kept ---------------------------------------------------------------
 
-    def entry(self, j: int, stop: frozenset[str], title_share: float) -> EntryFacts:
+    def entry(self, key: str, stop: frozenset[str], title_share: float) -> EntryFacts:
         return self._derived(
-            self._entries, (j, stop, title_share), lambda: self.lexicon.entry_facts(j, stop, title_share)
+            self._entries, (key, stop, title_share), lambda: self.lexicon.entry_facts(key, stop, title_share)
         )
 
-    def duty_neighbours(self, j: int) -> dict[int, float]:
-        """The titles whose duties are most alike entry j's (callers must not change the dict)."""
-        return self._derived(self._duties, j, lambda: self.lexicon.duty_neighbours(j))
+    def duty_neighbours(self, key: str) -> dict[str, float]:
+        """The titles whose duties are most alike those of title `key` (callers must not change the dict)."""
+        return self._derived(self._duties, key, lambda: self.lexicon.duty_neighbours(key))
+
+    def title_vector(self, key: str) -> npt.NDArray[np.float32] | None:
+        """A title's unit vector: its own where it has one, else the mean of its known words'."""
+        found = self._title_vectors.get(key)
+        if found is None and key not in self._title_vectors:
+            j = self.lexicon.index.get(key)
+            found = self._title_vectors.keep(
+                key, np.asarray(self.lexicon.normed[j]) if j is not None else self.lexicon.words_vector(key)
+            )
+        return found
 
     def different_jobs_cosine(self, options: ExpansionOptions) -> float | None:
         """`Lexicon.different_jobs_cosine` at the options' quantile, worked out once per quantile."""
@@ -180,10 +196,22 @@ class ExpansionCache:
     def _correct(self, word: str) -> str | None:
         return self.speller().correct(word)
 
+    def word_speller(self) -> Speller:
+        """A speller towards the vocabulary's words alone (no title words: a title's typo is not one)."""
+        if self._word_speller is None:
+            with self._lock:
+                if self._word_speller is None:
+                    self._word_speller = Speller(self.lexicon, titles=False)
+        return self._word_speller
+
     @staticmethod
     def _marker(options: ExpansionOptions) -> _VocabularyKey:
         return _VocabularyKey(
-            options.noise_words, options.modifiers, tuple(sorted(options.patterns.items())), options.spelling
+            options.noise_words,
+            options.modifiers,
+            tuple(sorted(options.patterns.items())),
+            options.spelling,
+            options.compose_runs,
         )
 
     def vocabulary(self, options: ExpansionOptions) -> Vocabulary:
@@ -202,12 +230,14 @@ class ExpansionCache:
                 found = self._vocabularies.keep(
                     marker,
                     Vocabulary(
-                        lex.index,
+                        lex.index.keys() | lex.title_row.keys(),  # a title may have no vector
                         names,
                         frozenset(w for n in options.noise_words for w in n.split(" ")),
                         frozenset(options.modifiers),
                         lex.pattern_spellings(options),
                         self._correct if options.spelling else no_correction,
+                        options.compose_runs,
+                        lex.title_words,
                     ),
                 )
         return self._vocabulary_of.keep(options, found)

@@ -25,7 +25,8 @@ from collections.abc import Sequence
 from widen.decisions.decision import DecisionSet, PhraseDecisions
 from widen.expansion.cache import AloneKey, Answer, DecidedKey, ExpansionCache, SpanKey, SpanOutcome
 from widen.expansion.candidates import find_candidates, span_vector
-from widen.expansion.filters import QueryContext, Situation, decide, query_contexts, sift
+from widen.expansion.context import QueryContext, query_contexts
+from widen.expansion.filters import Situation, decide, sift
 from widen.expansion.lexicon import Lexicon
 from widen.expansion.options import ExpansionOptions
 from widen.expansion.query_text import JOBS, merged_text, render, segments_baseline, segments_words
@@ -54,9 +55,8 @@ def expand(
         cache = ExpansionCache(lexicon)
     elif cache.version != lexicon.version:
         raise ValueError(f"the cache is for bundle {cache.version}, not {lexicon.version}")
-    spans = segment_query(
-        query, lexicon.phraser, cache.vocabulary(options), min(options.max_words, lexicon.max_words), options.max_tokens
-    )
+    longest = max(min(options.max_words, lexicon.max_words), lexicon.longest_title)
+    spans = segment_query(query, lexicon.phraser, cache.vocabulary(options), longest, options.max_tokens)
     alone = _alone(lexicon, decisions, spans, options, explain)
     if alone is not None:
         made = cache.alone.get(alone)
@@ -95,7 +95,7 @@ def _span_outcome(
     said = decisions.get(span.typed or phrase_of_key(span.key))
     if span.parts or context.head or said.blocked or said.pinned or said.exempt:
         return _work_out(lex, cache, span, said, options, explain, context)
-    key: SpanKey = (lex.index[span.key], options, explain)
+    key: SpanKey = (span.key, options, explain)
     known = cache.spans.get(key)
     if known is None:
         known = cache.spans.keep(key, _work_out(lex, cache, span, said, options, explain, context))
@@ -116,19 +116,21 @@ def _work_out(
     found = find_candidates(lex, cache, span, options)
     if said.exempt:
         drops = tuple(
-            Dropped(phrase=phrase_of_key(lex.keys[c.entry]), similarity=round(c.similarity, 4), reason="exempt")
+            Dropped(phrase=phrase_of_key(c.key), similarity=round(c.similarity, 4), reason="exempt")
             for c in found.candidates
         )
         return SpanOutcome((), drops if explain else ())
     stop = frozenset(options.noise_words)
     pins = pinned(lex, said, span_vector(lex, span))
     if found.source == "model":  # what the bundle and the options alone decide: kept once
-        key: DecidedKey = (lex.index[span.key], options)
+        key: DecidedKey = (span.key, options)
         decided = cache.decided.get(key)
         if decided is None:
-            decided = cache.decided.keep(key, decide(lex, cache, text, found.candidates, found.own_share, options))
+            decided = cache.decided.keep(
+                key, decide(lex, cache, text, found.candidates, found.own_share, found.own_postings, options)
+            )
     else:
-        decided = decide(lex, cache, text, found.candidates, found.own_share, options)
+        decided = decide(lex, cache, text, found.candidates, found.own_share, found.own_postings, options)
     situation = Situation(
         lex,
         options,
@@ -226,12 +228,14 @@ def _alone(
     if explain or len(spans) != 1:
         return None
     span = spans[0]
-    if span.kind not in ("phrase", "term") or span.typed or span.parts or span.key not in lex.index:
+    if span.kind not in ("phrase", "term") or span.typed or span.parts:
+        return None
+    if span.key not in lex.index and span.key not in lex.title_row:
         return None
     said = decisions.get(phrase_of_key(span.key))
     if said.blocked or said.pinned or said.exempt:
         return None
-    return (lex.index[span.key], options)
+    return (span.key, options)
 
 
 def prepare(lex: Lexicon, cache: ExpansionCache, options: ExpansionOptions) -> int:
@@ -241,11 +245,11 @@ def prepare(lex: Lexicon, cache: ExpansionCache, options: ExpansionOptions) -> i
     (a few expansions an entry), with the whole answer to the entry typed alone; the candidates and
     filters it came from are let go again. Returns the number of entries prepared."""
     none, alone = DecisionSet(), QueryContext(frozenset(), False, None)
-    for i, key in enumerate(lex.keys):
+    for key in lex.keys:
         span = Span(key, "phrase" if PHRASE_JOINER in key else "term")
         _span_outcome(lex, cache, span, none, options, False, alone)
         # And the whole answer to the entry typed alone, where it segments as itself.
         expand(lex, none, phrase_of_key(key), options, cache=cache)
-        cache.candidates.drop((i, options.candidates))
-        cache.decided.drop((i, options))
+        cache.candidates.drop((key, options.candidates))
+        cache.decided.drop((key, options))
     return len(lex.keys)

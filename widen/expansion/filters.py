@@ -13,20 +13,17 @@ from __future__ import annotations
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 
-import numpy as np
-import numpy.typing as npt
-
 from widen.decisions.decision import PhraseDecisions
 from widen.expansion.cache import ExpansionCache
 from widen.expansion.candidates import Candidate, relation_of
-from widen.expansion.lexicon import EntryFacts, Lexicon
+from widen.expansion.context import QueryContext
+from widen.expansion.lexicon import EntryFacts, Lexicon, head_of
 from widen.expansion.options import ExpansionOptions
-from widen.expansion.query_text import JOBS
 from widen.expansion.result import DropReason
-from widen.expansion.segment import Span
-from widen.text.forms import PHRASE_JOINER, spelling_key
+from widen.expansion.typos import mistyped
+from widen.text.forms import spelling_key
 
-__all__ = ["FILTERS", "Filter", "Decided", "Ground", "Situation", "QueryContext", "decide", "sift", "query_contexts"]
+__all__ = ["FILTERS", "Filter", "Decided", "Ground", "Situation", "QueryContext", "decide", "sift"]
 
 
 @dataclass(frozen=True)
@@ -39,19 +36,26 @@ class Ground:
     own_core: frozenset[str]  # its words less modifiers and pattern words
     own_spelling: str
     modifiers: frozenset[str]
-    floor: float  # duties cosine below which two titles are different jobs
     apart: float  # input cosine two different jobs reach in this bundle (no duties profile)
     titled: bool  # the bundle has duties profiles
     own_share: float
+    own_postings: int  # how many postings name the span as their title (0: no title with a profile)
+    own_head: str  # the word of the span's title that names the job
+    correct: Callable[[str], str | None]  # spelling correction towards the vocabulary's words
+    near: Callable[[str], str | None]  # the vocabulary's word one slip away
 
+    def misspelled(self, key: str) -> bool:
+        """A title an employer mistyped (`widen.expansion.typos.mistyped`)."""
+        return mistyped(self.lexicon, key, self.options.noise_words, self.near)
 
-@dataclass(frozen=True)
-class QueryContext:
-    """What one span's filters need to know of the whole query."""
+    def same_job(self, c: Candidate) -> float:
+        """The duties cosine one job reaches with itself at the sizes of the span's and `c`'s profiles."""
+        return self.lexicon.same_job(self.own_postings, c.postings)
 
-    words: frozenset[str]  # every word of the query's job spans
-    head: bool  # a single word next to another job span: the head of a title split in two
-    whole: npt.NDArray[np.float32] | None  # the job spans' composed vector, for a head word
+    def by_chance(self, c: Candidate) -> float:
+        """The duties cosine two different jobs stay under (at `chance_duties`) at these sizes."""
+        quantile = self.options.chance_duties
+        return 0.0 if quantile == "off" else self.lexicon.chance(self.own_postings, c.postings, quantile)
 
 
 @dataclass
@@ -87,7 +91,10 @@ class Filter:
 
 def _off_query(c: Candidate, e: EntryFacts, relation: str, s: Situation) -> bool:
     whole = s.context.whole
-    return whole is not None and float(s.lexicon.normed[c.entry] @ whole) < s.options.min_similarity
+    if whole is None:
+        return False
+    vector = s.lexicon.normed[c.entry] if c.entry >= 0 else s.lexicon.words_vector(c.key)
+    return vector is None or float(vector @ whole) < s.options.min_similarity
 
 
 #: Every filter, in the order they are tried.
@@ -99,6 +106,9 @@ FILTERS: tuple[Filter, ...] = (
     Filter("blocked", test=lambda c, e, r, s: e.phrase in s.said.blocked, applies=lambda s: bool(s.said.blocked)),
     Filter("pinned", test=lambda c, e, r, s: e.phrase in s.pinned, applies=lambda s: bool(s.pinned)),
     Filter("same_as_original", fixed=lambda c, e, g: e.spelling == g.own_spelling),
+    # A title seen in a posting or two whose word the dump never uses often enough to know, and that is
+    # a slip away from a word it does ("nursing assiistant", "temmporary"): a typo in the title.
+    Filter("misspelled", fixed=lambda c, e, g: c.entry < 0 and g.misspelled(c.key)),
     Filter("broader_than_original", fixed=lambda c, e, g: e.content < g.own_words),
     Filter(
         "modifier_only",
@@ -113,14 +123,20 @@ FILTERS: tuple[Filter, ...] = (
         applies=lambda s: s.context.head,
     ),
     Filter("off_query", test=_off_query, applies=lambda s: s.context.head and s.context.whole is not None),
-    Filter("different_duties", fixed=lambda c, e, g: c.duties is not None and c.duties < g.floor),
+    Filter(
+        "different_duties",
+        fixed=lambda c, e, g: c.duties is not None and c.duties < g.options.related_duties * g.same_job(c),
+    ),
+    # A cosine no higher than two different jobs reach by chance at these sizes is no evidence at all:
+    # a title seen in one posting and one seen in two share little, and widen abstains.
+    Filter("weak_evidence", fixed=lambda c, e, g: c.duties is not None and c.duties < g.by_chance(c)),
     # In a bundle with duties profiles, a neighbour with no profile of its own is no title the dump
     # posts often enough to tell its duties: a word of the postings' text ("hold", "category" for
     # "driver"), not another name for a job. A title with a profile is compared by duties.
-    Filter(
-        "not_a_title",
-        fixed=lambda c, e, g: g.titled and c.duties is None and not g.lexicon.has_duties(c.entry),
-    ),
+    Filter("not_a_title", fixed=lambda c, e, g: g.titled and c.duties is None and c.postings == 0),
+    # A title with another head word names another job ("animal physiotherapist" is a physiotherapist,
+    # never a butcher) unless the two titles' duties say they are one: without duties, no.
+    Filter("other_head", fixed=lambda c, e, g: g.titled and c.duties is None and e.head != g.own_head),
     Filter("kind_mismatch", fixed=lambda c, e, g: g.own_share >= g.options.title_share > c.title_share),
     Filter(
         "used_alongside",
@@ -161,6 +177,22 @@ class Decided:
     first: DropReason | None
 
 
+def _stems(words: frozenset[str]) -> frozenset[str]:
+    """Words cut to their first five letters: "finance" and "financial" are one word here."""
+    return frozenset(w[:5] for w in words)
+
+
+def _other_kind(own: frozenset[str], other: frozenset[str], own_head: str, other_head: str) -> bool:
+    """Two titles with one head word and more words in common, each with words the other lacks, name two
+    kinds of that job ("import manager in hardware", "import manager in sugar"): however alike their
+    duties, the second is at most related. Two names sharing only the head ("staff nurse", "registered
+    nurse") are two names, judged by their duties."""
+    if own_head != other_head:
+        return False
+    a, b = _stems(own), _stems(other)
+    return bool(a - b) and bool(b - a) and len(a & b) >= 2
+
+
 def _first_that_holds(run: tuple[Filter, ...], c: Candidate, e: EntryFacts, g: Ground) -> DropReason | None:
     for f in run:
         if f.fixed is not None and f.fixed(c, e, g):
@@ -168,7 +200,9 @@ def _first_that_holds(run: tuple[Filter, ...], c: Candidate, e: EntryFacts, g: G
     return None
 
 
-def ground(lex: Lexicon, cache: ExpansionCache, text: str, own_share: float, options: ExpansionOptions) -> Ground:
+def ground(
+    lex: Lexicon, cache: ExpansionCache, text: str, own_share: float, own_postings: int, options: ExpansionOptions
+) -> Ground:
     stop = frozenset(options.noise_words)
     modifiers = frozenset(options.modifiers) | options.pattern_words()
     own_words = frozenset(text.split(" ")) - stop
@@ -179,10 +213,13 @@ def ground(lex: Lexicon, cache: ExpansionCache, text: str, own_share: float, opt
         own_words - modifiers,
         spelling_key(text, stop),
         modifiers,
-        options.related_duties * (lex.split_half or 0.0),
         cache.different_jobs_cosine(options) or 0.0,
         lex.split_half is not None,
         own_share,
+        own_postings,
+        head_of(text),
+        cache.word_speller().correct,
+        cache.word_speller().near,
     )
 
 
@@ -192,17 +229,21 @@ def decide(
     text: str,
     found: Sequence[Candidate],
     own_share: float,
+    own_postings: int,
     options: ExpansionOptions,
 ) -> tuple[Decided, ...]:
     """The fixed filters for each candidate of the span `text`, in `found`'s order."""
-    g = ground(lex, cache, text, own_share, options)
+    g = ground(lex, cache, text, own_share, own_postings, options)
     stop = frozenset(options.noise_words)
     out = []
     for c in found:
-        e = cache.entry(c.entry, stop, options.title_share)
+        e = cache.entry(c.key, stop, options.title_share)
         reasons = tuple(_first_that_holds(run, c, e, g) for run in _FIXED_RUNS)
         first = next((r for r in reasons if r is not None), None)
-        out.append(Decided(e, relation_of(c, lex, options), reasons, first))
+        relation = relation_of(c, lex, options, own_postings)
+        if relation == "equivalent" and _other_kind(g.own_core, e.content - g.modifiers, g.own_head, e.head):
+            relation = "related"
+        out.append(Decided(e, relation, reasons, first))
     return tuple(out)
 
 
@@ -256,24 +297,3 @@ def _reason(steps: Sequence[int | Filter], c: Candidate, d: Decided, s: Situatio
         elif step.test(c, d.facts, d.relation, s):  # type: ignore[misc]
             return step.reason
     return None
-
-
-def query_contexts(lex: Lexicon, spans: Sequence[Span]) -> list[QueryContext]:
-    """Each span's `QueryContext`; the words of the query's job spans are worked out once."""
-    jobs = [p for p in spans if p.kind in JOBS]
-    words = frozenset(w for p in jobs for w in p.key.split(PHRASE_JOINER))
-    plain = QueryContext(words, False, None)
-    out = []
-    for s, span in enumerate(spans):
-        beside = [spans[n] for n in (s - 1, s + 1) if 0 <= n < len(spans)]
-        head = PHRASE_JOINER not in span.key and span.kind in JOBS and any(p.kind in JOBS for p in beside)
-        if not head:
-            out.append(plain)
-            continue
-        whole = None
-        known = [lex.index[w] for p in jobs for w in ([p.key] if p.key in lex.index else p.parts)]
-        if len(known) > 1:
-            mean = np.asarray(lex.normed[known]).mean(axis=0)
-            whole = (mean / (np.linalg.norm(mean) or 1.0)).astype(np.float32)
-        out.append(QueryContext(words, True, whole))
-    return out

@@ -108,12 +108,15 @@ class ExpansionOptions(BaseModel):
     # "same job" cosine (the median of a title's two halves, `duties.split_half` in the manifest):
     # equivalent at or above `equivalent_duties`, related down to `related_duties`, dropped below.
     equivalent_duties: float = Field(default=0.75, gt=0.0, le=1.0)
-    related_duties: float = Field(default=0.3, ge=0.0, le=1.0)
+    related_duties: float = Field(default=0.5, ge=0.0, le=1.0)
     # Where a pair has no duties profiles, a neighbour must also be closer than two titles with
     # different duties are in this bundle, at the quantile that lets through, by chance, this many
     # different jobs among the `candidates` looked at: 1 - chance_neighbours / candidates (worked out
     # at load from the bundle's own titles; high on a dump whose templates make every title look alike).
     chance_neighbours: float = Field(default=0.5, ge=0.0, le=50.0)
+    # Abstain below the duties cosine two different jobs reach with this probability by chance, at the
+    # sizes (postings) of the two titles' profiles, as the bundle measured it; "off" does not.
+    chance_duties: Literal["off", "0.9", "0.95", "0.99"] = "0.99"
     # The relation hint where a pair has no duties profiles: equivalent needs both.
     equivalent_similarity: float = Field(default=0.8, ge=-1.0, le=1.0)
     equivalent_in_out: float = Field(default=-0.15, ge=-1.0, le=1.0)
@@ -139,6 +142,9 @@ class ExpansionOptions(BaseModel):
     spelling: bool = True
     candidates: int = Field(default=50, ge=1, le=1000)
     max_words: int = Field(default=3, ge=1, le=6)
+    # A run of job words that is no known entry or title is searched as one title the seeker means,
+    # by its words, up to this many words (0: each word on its own).
+    compose_runs: int = Field(default=8, ge=0, le=20)
     max_tokens: int = Field(default=32, ge=1, le=256, description="tokens of a query looked at")
 
     def with_request(

@@ -58,6 +58,11 @@ class Vocabulary:
     modifiers: frozenset[str]
     spellings: Mapping[str, str]  # pattern spelling key -> pattern name
     correct: Callable[[str], str | None]
+    # Join a run of job words that is no known entry or title into one span the seeker means as one
+    # title ("precision device inspector"), searched by its words (composed), at most this many words.
+    compose_runs: int = 0
+    # Words the dump's titles use: real words, however seldom, never corrected.
+    title_words: frozenset[str] = frozenset()
 
     def known(self, key: str) -> bool:
         return key in self.entries or key in self.names or key in self.spellings
@@ -69,6 +74,7 @@ class Vocabulary:
             or word in self.noise
             or word in self.modifiers
             or word in self.spellings
+            or word in self.title_words
             or is_number(word)
         )
 
@@ -149,6 +155,34 @@ def _typed_words(original: list[str], keys: list[str]) -> list[str]:
     return typed
 
 
+def _runs_joined(spans: list[Span], vocab: Vocabulary) -> list[Span]:
+    """Each run of two or more job spans (entries, not names, patterns or modifiers) that together are
+    no known entry or title, as one composed span of their parts."""
+    out: list[Span] = []
+    run: list[Span] = []
+
+    def close() -> None:
+        words = sum(words_in(s.key) for s in run)
+        if len(run) >= 2 and words <= vocab.compose_runs:
+            key = PHRASE_JOINER.join(s.key for s in run)
+            if not vocab.known(key):
+                typed = " ".join(s.typed or s.key.replace(PHRASE_JOINER, " ") for s in run)
+                written = typed if any(s.typed for s in run) else ""
+                out.append(Span(key, "unknown", tuple(s.key for s in run), written))
+                return
+        out.extend(run)
+
+    for span in spans:
+        if span.kind in ("phrase", "term"):
+            run.append(span)
+            continue
+        close()
+        run = []
+        out.append(span)
+    close()
+    return out
+
+
 def segment_query(
     query: str,
     phraser: Callable[[list[str]], list[str]],
@@ -179,9 +213,11 @@ def segment_query(
             spans.append(_classify(key, vocab, _greedy(phraser(list(fixed)), vocab.known, max_words), typed))
             continue
         keys = _greedy(_unglue(phraser(list(fixed)), vocab), vocab.known, max_words)
+        found = []
         for key, typed in zip(keys, _typed_words(toks, keys), strict=True):
             written = typed if typed != key.replace(PHRASE_JOINER, " ") else ""
-            spans.append(_classify(key, vocab, key.split(PHRASE_JOINER), written))
+            found.append(_classify(key, vocab, key.split(PHRASE_JOINER), written))
+        spans.extend(_runs_joined(found, vocab) if vocab.compose_runs else found)
         if budget <= 0:
             break
     return spans

@@ -27,9 +27,10 @@ def _distance_for(word: str) -> int:
 
 class Speller:
     """Every word of the vocabulary and of the protected names, with its corpus count (a word's own
-    count plus the counts of the phrases it is in). Parameters: the lexicon it corrects towards."""
+    count plus the counts of the phrases it is in), and with `titles` the words of the dump's titles
+    (counted by the postings naming them). Parameters: the lexicon it corrects towards; `titles`."""
 
-    def __init__(self, lexicon: Lexicon) -> None:
+    def __init__(self, lexicon: Lexicon, titles: bool = True) -> None:
         counts: Counter[str] = Counter()
         for key, n in zip(lexicon.keys, lexicon.counts.tolist(), strict=True):
             for word in key.split(PHRASE_JOINER):
@@ -39,8 +40,21 @@ class Speller:
             for word in key.split(PHRASE_JOINER):
                 if word.isalpha() and len(word) >= 3:
                     counts[word] += 1
+        for key, n in zip(lexicon.titles if titles else [], lexicon.title_postings, strict=False):
+            for word in key.split(PHRASE_JOINER):
+                if word.isalpha() and len(word) >= 3:
+                    counts[word] += n
         self.words = sorted(counts)
         self.counts: npt.NDArray[np.float64] = np.array([counts[w] for w in self.words], dtype=np.float64)
+
+    def near(self, word: str) -> str | None:
+        """The most frequent word one slip away (one edit, a swap of two letters included), for a word of
+        three letters or more; None when none is."""
+        if len(word) < 3:
+            return None
+        found = process.extract(word, self.words, scorer=distance.OSA.distance, score_cutoff=1, limit=20)
+        found = [m for m in found if m[0] != word]
+        return str(max(found, key=lambda m: (self.counts[m[2]], m[0]))[0]) if found else None
 
     def correct(self, word: str) -> str | None:
         """The vocabulary word a mistyped word most likely is: the fewest edits (optimal string

@@ -54,12 +54,12 @@ def weighed(kept: Sequence[tuple[Candidate, Decided]], source: str, options: Exp
     return out
 
 
-def pinned(lex: Lexicon, said: PhraseDecisions, vector: npt.NDArray[np.float32]) -> list[Expansion]:
+def pinned(lex: Lexicon, said: PhraseDecisions, vector: npt.NDArray[np.float32] | None) -> list[Expansion]:
     """The neighbours a reviewer pinned to the phrase, with the weights they gave."""
     kept = []
     for phrase, weight in said.pinned:
         j = lex.index.get(key_of_phrase(phrase))
-        similarity = 0.0 if j is None else float(np.asarray(lex.normed[j]) @ vector)
+        similarity = 0.0 if j is None or vector is None else float(np.asarray(lex.normed[j]) @ vector)
         kept.append(
             Expansion(
                 phrase=phrase,

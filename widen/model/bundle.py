@@ -10,7 +10,10 @@ bundles/VERSION/       one published bundle, never changed after publication
   phrases.json         the phrase passes, to segment queries as the corpus was segmented
   phrase_table.tsv     mined phrases with score and count, for review
   protected.json       place and employer names (with their field and spelling), never expanded nor offered
-  duty_rows.npy / duty_index.npy / duty_similarity.npy   titles with the most alike duties (optional)
+  titles.json          every title with a duties profile: its key and how many postings name it
+  title_index.npy / title_similarity.npy   per title, the titles with the most alike duties
+  (bundles made before the title table have duty_rows.npy / duty_index.npy / duty_similarity.npy,
+  the same table over vocabulary entries; they are read as one)
 
 The store around the bundles (CURRENT, the journal, decisions, search indexes) is `widen.model.store`.
 """
@@ -34,6 +37,10 @@ from widen.text.forms import phrase_of_key
 
 __all__ = ["FORMAT_VERSION", "Bundle", "BundleWriter", "read_manifest", "verify_folder", "sha256_file"]
 
+#: How many postings an older bundle's titles are taken to have been named by (its profiles were made
+#: from titles named at least that often, and the count itself was not kept).
+SPLIT_HALF_POSTINGS = 20
+
 MANIFEST = "manifest.json"
 VECTORS = "vectors.kv"
 NORMED_VECTORS = "normed_vectors.npy"
@@ -47,6 +54,9 @@ PROTECTED = "protected.json"
 DUTY_ROWS = "duty_rows.npy"
 DUTY_INDEX = "duty_index.npy"
 DUTY_SIMILARITY = "duty_similarity.npy"
+TITLES = "titles.json"
+TITLE_INDEX = "title_index.npy"
+TITLE_SIMILARITY = "title_similarity.npy"
 REQUIRED = (VECTORS, NORMED_VECTORS, OUTPUT_VECTORS, NEIGHBOURS_INDEX, NEIGHBOURS_SIMILARITY, PHRASES, PROTECTED)
 
 
@@ -136,11 +146,12 @@ class BundleWriter:
         data = {"fields": fields, "entries": sorted(names), "names": {k: list(v) for k, v in sorted(names.items())}}
         (self.folder / PROTECTED).write_text(json.dumps(data) + "\n", encoding="utf-8")
 
-    def duties(self, rows: npt.ArrayLike, index: npt.ArrayLike, similarity: npt.ArrayLike) -> None:
-        """Per entry its row of the duties table (-1: none); per row the titles with the most alike duties."""
-        np.save(self.folder / DUTY_ROWS, np.asarray(rows, dtype=np.int32))
-        np.save(self.folder / DUTY_INDEX, np.asarray(index, dtype=np.int32))
-        np.save(self.folder / DUTY_SIMILARITY, np.asarray(similarity, dtype=np.float32))
+    def titles(self, keys: list[str], counts: list[int], index: npt.ArrayLike, similarity: npt.ArrayLike) -> None:
+        """Every title with a duties profile (key, postings naming it); per title the titles (rows of the
+        same list) with the most alike duties, and their cosines."""
+        (self.folder / TITLES).write_text(json.dumps({"keys": keys, "counts": counts}) + "\n", encoding="utf-8")
+        np.save(self.folder / TITLE_INDEX, np.asarray(index, dtype=np.int32))
+        np.save(self.folder / TITLE_SIMILARITY, np.asarray(similarity, dtype=np.float32))
 
     def finish(self, draft: Manifest) -> Manifest:
         """Write manifest.json: the draft with the sha256 of every other file; the manifest written."""
@@ -185,17 +196,42 @@ class Bundle:
             self.protected: frozenset[str] = frozenset(names["entries"])
             #: key -> (field, the name as the dump writes it); empty for bundles of the first format.
             self.names: dict[str, tuple[str, str]] = {k: (v[0], v[1]) for k, v in names.get("names", {}).items()}
-            self.duty_rows: npt.NDArray[np.int32] | None = None
-            self.duty_index: npt.NDArray[np.int32] | None = None
-            self.duty_similarity: npt.NDArray[np.float32] | None = None
-            if (self.folder / DUTY_ROWS).is_file():
-                self.duty_rows = np.load(self.folder / DUTY_ROWS, mmap_mode="r")
-                self.duty_index = np.load(self.folder / DUTY_INDEX, mmap_mode="r")
-                self.duty_similarity = np.load(self.folder / DUTY_SIMILARITY, mmap_mode="r")
+            self._titles()
         except (OSError, ValueError, KeyError) as exc:
             raise BundleError(f"bundle {version} cannot be opened: {exc}") from exc
         self.keys: list[str] = list(self.vectors.index_to_key)
         self.index: dict[str, int] = dict(self.vectors.key_to_index)
+        if self.title_keys is None:  # a bundle made before the title table: its entries with a row
+            self._titles_of_entries()
+
+    def _titles(self) -> None:
+        """The title table: every title with a duties profile, and its titles with the most alike duties."""
+        self.title_keys: list[str] | None = None
+        self.title_counts: list[int] = []
+        self.title_index: npt.NDArray[np.int32] | None = None
+        self.title_similarity: npt.NDArray[np.float32] | None = None
+        if (self.folder / TITLES).is_file():
+            data = json.loads((self.folder / TITLES).read_text(encoding="utf-8"))
+            self.title_keys, self.title_counts = list(data["keys"]), [int(n) for n in data["counts"]]
+            self.title_index = np.load(self.folder / TITLE_INDEX, mmap_mode="r")
+            self.title_similarity = np.load(self.folder / TITLE_SIMILARITY, mmap_mode="r")
+
+    def _titles_of_entries(self) -> None:
+        """An older bundle's duties table over vocabulary entries, read as a title table: its titles are
+        the entries with a row (how many postings named each was not kept: the split-half size)."""
+        self.title_keys = []
+        if not (self.folder / DUTY_ROWS).is_file():
+            return
+        rows = np.load(self.folder / DUTY_ROWS)
+        index = np.load(self.folder / DUTY_INDEX)
+        entries = np.flatnonzero(rows >= 0)
+        order = entries[np.argsort(rows[entries])]  # entry of each row, in row order
+        self.title_keys = [self.keys[int(j)] for j in order]
+        self.title_counts = [SPLIT_HALF_POSTINGS] * len(order)
+        row_of_entry = np.full(len(self.keys), -1, dtype=np.int64)
+        row_of_entry[order] = np.arange(len(order))
+        self.title_index = row_of_entry[index].astype(np.int32)  # entries -> rows of the title table
+        self.title_similarity = np.load(self.folder / DUTY_SIMILARITY)
 
     @property
     def max_words(self) -> int:

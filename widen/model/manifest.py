@@ -50,6 +50,13 @@ class DutiesInfo(_Part):
     min_postings: int | None = None
     split_half: float | None = Field(default=None, description="median cosine of a title's two halves")
     split_half_titles: int | None = None
+    sizes: list[int] = Field(default=[], description="profile sizes (postings) the tables below are for")
+    same_job: list[list[float | None]] = Field(
+        default=[], description="median cosine of two samples of one title, by the two samples' sizes"
+    )
+    chance: dict[str, list[list[float | None]]] = Field(
+        default={}, description="quantiles of the cosine of samples of two different titles, by sizes"
+    )
 
 
 class GateInfo(_Part):

@@ -1,0 +1,46 @@
+"""What one span's filters need to know of the whole query around it."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+import numpy.typing as npt
+
+from widen.expansion.lexicon import Lexicon
+from widen.expansion.query_text import JOBS
+from widen.expansion.segment import Span
+from widen.text.forms import PHRASE_JOINER
+
+__all__ = ["QueryContext", "query_contexts"]
+
+
+@dataclass(frozen=True)
+class QueryContext:
+    """What one span's filters need to know of the whole query."""
+
+    words: frozenset[str]  # every word of the query's job spans
+    head: bool  # a single word next to another job span: the head of a title split in two
+    whole: npt.NDArray[np.float32] | None  # the job spans' composed vector, for a head word
+
+
+def query_contexts(lex: Lexicon, spans: Sequence[Span]) -> list[QueryContext]:
+    """Each span's `QueryContext`; the words of the query's job spans are worked out once."""
+    jobs = [p for p in spans if p.kind in JOBS]
+    words = frozenset(w for p in jobs for w in p.key.split(PHRASE_JOINER))
+    plain = QueryContext(words, False, None)
+    out = []
+    for s, span in enumerate(spans):
+        beside = [spans[n] for n in (s - 1, s + 1) if 0 <= n < len(spans)]
+        head = PHRASE_JOINER not in span.key and span.kind in JOBS and any(p.kind in JOBS for p in beside)
+        if not head:
+            out.append(plain)
+            continue
+        whole = None
+        known = [lex.index[w] for p in jobs for w in ([p.key] if p.key in lex.index else p.parts) if w in lex.index]
+        if len(known) > 1:
+            mean = np.asarray(lex.normed[known]).mean(axis=0)
+            whole = (mean / (np.linalg.norm(mean) or 1.0)).astype(np.float32)
+        out.append(QueryContext(words, True, whole))
+    return out
