@@ -21,7 +21,7 @@ from pathlib import Path
 from typing import Any
 
 from bench.common import ROOT, machine
-from demo_postings.generate import BOARDS, generate
+from demo_postings.generate import BOARD_NAMES, generate
 from widen.evaluation.scorecard import scorecard
 from widen.expansion.lexicon import Lexicon
 from widen.model.store import Store
@@ -71,7 +71,7 @@ def board(name: str, out: Path, postings: int, seed: int) -> dict[str, Any]:
     truth = json.loads((data / "truth.json").read_text(encoding="utf-8"))
     card = scorecard(lexicon, truth, lexicon.options)
     return {
-        "board": BOARDS[name].name,
+        "board": BOARD_NAMES[name],
         "bundle": version,
         "gate": {"score": gate.score if gate else None, "passed": bool(gate and gate.passed), "forced": forced},
         "report": json.loads((out / name / "eval" / "report.json").read_text(encoding="utf-8")),
@@ -87,7 +87,7 @@ def main() -> None:
     parser.add_argument("--seed", type=int, default=7)
     args = parser.parse_args()
     results: dict[str, Any] = {"machine": machine(), "date": time.strftime("%Y-%m-%d"), "boards": {}}
-    for name in ("tollbridge", "oxmere"):
+    for name in ("tollbridge", "oxmere", "fellhaven"):
         print(f"{name} ...", file=sys.stderr, flush=True)
         results["boards"][name] = board(name, args.out.resolve(), args.postings, args.seed)
     (args.out / "boards.json").write_text(json.dumps(results, indent=2) + "\n", encoding="utf-8")

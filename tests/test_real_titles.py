@@ -14,18 +14,25 @@ from demo_postings.fellhaven_board import bands
 from demo_postings.generate import generate
 from tests.helpers import Opened, open_store, train_quietly
 from training.config import load_config
+from widen.cli import main
 from widen.evaluation.runs import read_queries
 from widen.evaluation.scorecard import query_scorecard
 from widen.text.forms import PHRASE_JOINER, phrase_of_key
 
 
 @pytest.fixture(scope="module")
-def fellhaven(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, Opened]:
+def fellhaven_store(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, Path]:
     data = tmp_path_factory.mktemp("fellhaven")
     generate(data, 6000, seed=3, board="fellhaven")
     store = tmp_path_factory.mktemp("fellhaven-store")
     config = load_config(None, {"gate.pairs": str(data / "pairs.tsv")})
     train_quietly(data / "postings.jsonl", store, config, force=True)
+    return data, store
+
+
+@pytest.fixture(scope="module")
+def fellhaven(fellhaven_store: tuple[Path, Path]) -> tuple[Path, Opened]:
+    data, store = fellhaven_store
     return data, open_store(store)
 
 
@@ -91,3 +98,32 @@ def test_real_titles_expand_to_the_same_or_a_related_occupation(fellhaven: tuple
     assert card["all"]["expansions"] > 100
     assert card["all"]["precision"] >= 0.75, card["all"]
     assert card["all"]["equivalent_precision"] >= 0.65, card["all"]
+
+
+def test_evaluate_reports_by_part_and_band(fellhaven_store: tuple[Path, Path], tmp_path: Path) -> None:
+    """`widen evaluate` on a board whose queries carry a part and a band: the tables by part and band,
+    whose means, weighted by their queries, are the overall means (the same queries, only grouped),
+    and the title queries' expansions against the truth."""
+    data, store = fellhaven_store
+    queries = tmp_path / "q.jsonl"
+    lines = (data / "queries.jsonl").read_text(encoding="utf-8").splitlines(keepends=True)
+    queries.write_text("".join(lines[:160]), encoding="utf-8")
+    args = ["evaluate", "--store", str(store), "--queries", str(queries), "--truth", str(data / "truth.json")]
+    assert main([*args, "--postings", str(data / "open_postings.jsonl"), "--out", str(tmp_path / "eval")]) == 0
+    report = json.loads((tmp_path / "eval" / "report.json").read_text(encoding="utf-8"))
+    parts = report["parts"]
+    assert set(parts) == {"tune", "report"}
+    assert sum(p["queries"] for p in parts.values()) == report["queries"]
+    for method in ("bag_of_words", "widen"):
+        pooled = sum(p["queries"] * p["methods"][method]["recall@100"] for p in parts.values()) / report["queries"]
+        assert pooled == pytest.approx(report["methods"][method]["recall@100"], abs=1e-6)
+        for entry in parts.values():
+            bands = entry["bands"].values()
+            assert sum(b["queries"] for b in bands) == entry["queries"]
+            pooled = sum(b["queries"] * b["methods"][method]["ndcg@10"] for b in bands) / entry["queries"]
+            assert pooled == pytest.approx(entry["methods"][method]["ndcg@10"], abs=1e-6)
+    card = report["title_scorecard"]
+    assert card["all"]["queries"] > 0 and 0.0 <= card["all"]["precision"] <= 1.0
+    text = (tmp_path / "eval" / "report.md").read_text(encoding="utf-8")
+    assert "## By part and frequency band of the query's title" in text
+    assert "| report, tail (" in text or "| tune, tail (" in text

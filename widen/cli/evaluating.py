@@ -29,6 +29,7 @@ def evaluate(args: argparse.Namespace) -> int:
     from widen.evaluation.rm3 import RM3
     from widen.evaluation.runs import evaluate as run_evaluation
     from widen.evaluation.runs import read_queries
+    from widen.evaluation.scorecard import query_scorecard
 
     ks = sorted(set(_numbers(args.k, "--k")))
     if not ks or min(ks) < 1 or max(ks) > 100:
@@ -60,6 +61,8 @@ def evaluate(args: argparse.Namespace) -> int:
         print(f"indexing {what} (reused when unchanged) ...", file=sys.stderr)
         index = SearchIndex(args.postings, store.search_indexes, window)
         report = run_evaluation(lexicon, decisions, index, queries, lexicon.options, ks, truth, rm3)
+        if truth is not None and any(q.extra.get("part") for q in queries):
+            report["title_scorecard"] = query_scorecard(lexicon, truth, queries, lexicon.options)
         if window is None or window == days[0]:
             for path in write_report(report, args.out, lexicon.version, board):
                 print(f"wrote {path}")

@@ -128,6 +128,47 @@ def _plots(report: dict[str, Any], out: Path, board: str) -> list[Path]:
     return [out / "recall_at_k.png", out / "recall_by_kind.png"]
 
 
+def _parts_tables(report: dict[str, Any]) -> list[str]:
+    """By part (tune, report) and frequency band of the query's title, where the queries say; and the
+    expansions against the truth, the same way."""
+    if not report.get("parts"):
+        return []
+    shown = [m for m in ("bag_of_words", "rm3", "widen", "curated") if m in report["methods"]]
+    lines = [
+        "## By part and frequency band of the query's title",
+        "",
+        "Thresholds were chosen on the `tune` part; `report` is where they are reported.",
+        "",
+        "| part, band (queries) | " + " | ".join(f"{m} recall@100 / nDCG@10 / exact-first" for m in shown) + " |",
+        "|---" * (len(shown) + 1) + "|",
+    ]
+    for part, entry in report["parts"].items():
+        for band, block in [("all", entry), *entry["bands"].items()]:
+            cells = []
+            for m in shown:
+                v = block["methods"][m]
+                cells.append(f"{v['recall@100']:.3f} / {v['ndcg@10']:.3f} / {v['exact_first']:.2f}")
+            lines.append(f"| {part}, {band} ({block['queries']}) | " + " | ".join(cells) + " |")
+    card = report.get("title_scorecard")
+    if card:
+        lines += [
+            "",
+            "Expansions of each title query against the truth (precision: the same or a related job; same job;",
+            "coverage of the occupation's other names the dump uses; precision of the `equivalent` hint):",
+            "",
+            "| part, band | title queries (expanded) | precision | same job | coverage | equivalent precision |",
+            "|---|---|---|---|---|---|",
+        ]
+        for name, c in card.items():
+            if name == "wrong":
+                continue
+            lines.append(
+                f"| {name} | {c['queries']} ({c['expanded_queries']}) | {c['precision']:.3f} | {c['same_job']:.3f}"
+                f" | {c['coverage']:.3f} | {c['equivalent_precision']:.3f} |"
+            )
+    return [*lines, ""]
+
+
 def _markdown(report: dict[str, Any], model_version: str, board: str) -> list[str]:
     lines = [
         f"# Search impact of widen on {board or 'the labelled queries'} (bundle {model_version})",
@@ -141,6 +182,7 @@ def _markdown(report: dict[str, Any], model_version: str, board: str) -> list[st
         "",
         *_kinds_table(report),
         "",
+        *_parts_tables(report),
         "## Per family (recall@100, nDCG@10)",
         "",
         "| family | bag of words | widen |",
