@@ -9,11 +9,13 @@ from __future__ import annotations
 
 import argparse
 import json
+import re
 from pathlib import Path
 from typing import Any
 
 from widen.decisions.decision import DecisionSet
 from widen.evaluation.index import SearchIndex
+from widen.evaluation.methods import CONCEPT_METHODS
 from widen.evaluation.runs import evaluate, read_queries
 from widen.evaluation.scorecard import query_scorecard
 from widen.expansion.lexicon import Lexicon
@@ -33,16 +35,18 @@ def _value(text: str) -> Any:
 def tune(store: Path, data: Path, variants: list[dict[str, Any]], part: str = "tune") -> list[dict[str, Any]]:
     lexicon = Lexicon(Store(store).open_bundle())
     queries = [q for q in read_queries(data / "queries.jsonl") if q.extra.get("part") == part]
-    index = SearchIndex(data / "open_postings.jsonl", store / "search-index")
+    tagger = lexicon if lexicon.concepts is not None else None
+    index = SearchIndex(data / "open_postings.jsonl", store / "search-index", tagger=tagger)
+    methods = ("bag_of_words", "widen", *(CONCEPT_METHODS if tagger else ()))
     truth = json.loads((data / "truth.json").read_text(encoding="utf-8"))
     rows = []
     for change in variants:
         options = ExpansionOptions.model_validate({**lexicon.options.model_dump(), **change})
-        report = evaluate(lexicon, DecisionSet(), index, queries, options, methods=("bag_of_words", "widen"))
+        report = evaluate(lexicon, DecisionSet(), index, queries, options, methods=methods)
         row = {"change": change, "queries": report["queries"]}
         for name, block in [("all", report), *report["bands"].items()]:
             m = block["methods"]
-            row[name] = {k: [round(m[k]["recall@100"], 3), round(m[k]["ndcg@10"], 3)] for k in m}
+            row[name] = {k: [round(m[k][x], 3) for x in ("recall@100", "ndcg@10", "exact_first")] for k in m}
         card = query_scorecard(lexicon, truth, queries, options)
         for name in ("all", "tail"):
             c = card.get(name, {})
@@ -62,7 +66,8 @@ def main() -> None:
     args = parser.parse_args()
     variants: list[dict[str, Any]] = [{}]
     for spec in args.set:
-        variants.append({k: _value(v) for k, v in (pair.split("=", 1) for pair in spec.split(","))})
+        pairs = re.split(r",(?=[a-z_]+=)", spec)  # a value may hold commas: [0.1,0.2]
+        variants.append({k: _value(v) for k, v in (pair.split("=", 1) for pair in pairs)})
     tune(args.store, args.data, variants)
 
 

@@ -24,7 +24,7 @@ from service.middleware.body_limit import BodyLimit
 from service.middleware.expand_shortcut import PATH, ExpandShortcut
 from service.middleware.request_id import RequestId
 from service.review.routes import router as review_router
-from service.routes import decisions, demo, expansion, operations
+from service.routes import concepts, decisions, demo, expansion, operations
 from service.settings import Settings
 from service.state import ServiceState
 
@@ -51,7 +51,7 @@ def create_app(settings: Settings, state: ServiceState | None = None, watch: boo
     )
     app.state.widen = state
     install_error_handlers(app)
-    for router in (expansion.router, decisions.router, operations.router, review_router):
+    for router in (expansion.router, concepts.router, decisions.router, operations.router, review_router):
         app.include_router(router)
     if state.demo_index is not None:
         app.include_router(demo.router)
@@ -66,7 +66,8 @@ def create_app(settings: Settings, state: ServiceState | None = None, watch: boo
     # Outermost last: the request id, then the access record, the body limit, the GET shortcut.
     expand_get = next(r for r in expansion.router.routes if getattr(r, "path", "") == PATH and "GET" in r.methods)  # type: ignore[attr-defined]
     app.add_middleware(ExpandShortcut, state=state, route=expand_get)  # type: ignore[arg-type]
-    app.add_middleware(BodyLimit, limit=settings.max_body_bytes)  # type: ignore[arg-type]
+    tagging = {"/v1/concept-tokens": settings.max_tag_body_bytes}  # a batch of postings, descriptions and all
+    app.add_middleware(BodyLimit, limit=settings.max_body_bytes, by_path=tagging)  # type: ignore[arg-type]
     app.add_middleware(AccessRecord, telemetry=state.telemetry, log=settings.access_log)  # type: ignore[arg-type]
     app.add_middleware(RequestId)  # type: ignore[arg-type]
     return app

@@ -37,6 +37,8 @@ class Settings(BaseSettings):
     )
     max_batch: int = Field(default=100, ge=1)
     max_body_bytes: int = Field(default=64 * 1024, ge=1024)
+    # /v1/concept-tokens carries postings whole: up to 1,000 of them, a few KiB each.
+    max_tag_body_bytes: int = Field(default=16 * 1024 * 1024, ge=1024)
     access_log: bool = True
     # A postgresql:// database for the decisions, shared by replicas on several hosts; unset: the
     # store's own SQLite. A secret: it never appears in logs, errors or pages (password masked).

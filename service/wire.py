@@ -55,6 +55,9 @@ class RequestOptions(BaseModel):
     match: Literal["job", "all"] | None = Field(
         default=None, description="all (default): every segment but noise words is required; job: only the job"
     )
+    concepts: bool | None = Field(
+        default=None, description="add concept clauses (only once the index holds the postings' concept tokens)"
+    )
 
 
 class ExpandRequest(RequestOptions):

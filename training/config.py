@@ -112,6 +112,34 @@ class DutiesSection(_Section):
     block_rows: int = Field(default=1024, ge=1)
 
 
+class ConceptsSection(_Section):
+    """Concepts: k-means clusters of what postings say, at several sizes (`widen.model.concepts`)."""
+
+    enabled: bool = True
+    # Cluster counts, coarse to fine; a posting gets one token a size.
+    sizes: list[int] = Field(default=[32, 128, 512], min_length=1, max_length=6)
+    # Postings the clusters are learned from (an even sample of the dump); every posting is tagged.
+    sample: int = Field(default=100_000, ge=100)
+    iterations: int = Field(default=20, ge=1, le=200)
+    # Lloyd iterations when continuing the previous bundle's concepts: few, so ids keep their meaning.
+    continue_iterations: int = Field(default=2, ge=0, le=200)
+    # Continue the serving bundle's concepts (same ids, so an index tagged last night keeps matching).
+    carry_over: bool = True
+    title_weight: float = Field(default=1.0, ge=0.0, le=10.0)
+    sif_a: float = Field(default=1e-3, gt=0.0, le=1.0)
+    # Take the dump's common direction out of the text part of every posting vector.
+    remove_common: bool = True
+    token_prefix: str = Field(default="wc", pattern=r"^[a-z]{1,8}$")
+    label_titles: int = Field(default=5, ge=1, le=50)
+
+    @field_validator("sizes")
+    @classmethod
+    def _ascending(cls, sizes: list[int]) -> list[int]:
+        if any(s < 2 for s in sizes) or sorted(set(sizes)) != sizes:
+            raise ValueError("sizes: distinct cluster counts of at least 2, coarse to fine (ascending)")
+        return sizes
+
+
 class GateSection(_Section):
     pairs: str = ""
     # Search impact (optional): labelled queries run on a tantivy index of `postings` (default:
@@ -136,6 +164,7 @@ class TrainConfig(_Section):
     embedding: EmbeddingSection = EmbeddingSection()
     neighbours: NeighboursSection = NeighboursSection()
     duties: DutiesSection = DutiesSection()
+    concepts: ConceptsSection = ConceptsSection()
     gate: GateSection = GateSection()
     store: StoreSection = StoreSection()
     expansion: ExpansionOptions = ExpansionOptions()

@@ -151,12 +151,16 @@ def _run(
         model = fit_skipgram(phrased_path, config, out)
     with clock.stage("titles and duties"):
         duties = stages.titles_and_duties(model, postings, config)
-    shutil.rmtree(scratch_dir)  # the scratch corpus is not part of the bundle
     with clock.stage("save"):
         normed = stages.write_files(writer, model, in_titles, phrased, duties, config)
+    with clock.stage("concepts"):
+        concepts = stages.learn_concepts(writer, model, normed, postings, phrased, store, version, config, out)
+    shutil.rmtree(scratch_dir)  # the scratch corpus is not part of the bundle
     with clock.stage("neighbours"):
         stages.neighbour_table(writer, normed, config, out)
-    draft = stages.draft_manifest(version, utc_stamp(), corpus_path, corpus_sha, corpus, phrased, model, duties, config)
+    draft = stages.draft_manifest(
+        version, utc_stamp(), corpus_path, corpus_sha, corpus, phrased, model, duties, config, concepts
+    )
     with clock.stage("gate"):
         pairs = read_pairs(Path(config.gate.pairs)) if config.gate.pairs else None
         serving = _serving_lexicon(store) if pairs or config.gate.queries else None

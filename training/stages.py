@@ -8,6 +8,7 @@
 3. `fit_skipgram` (`training.skipgram`): skip-gram over the phrased corpus;
 4. `titles_and_duties`: which entries are titles, and their duties profiles;
 5. `write_files`: vectors, counts, phrases, protected names and duties into the bundle folder;
+   `learn_concepts` (`training.concepts`): k-means clusters of what postings say;
 6. `neighbour_table`: the exact top-k table;
 7. `judge`: the gate, on the bundle as the service will open it;
 8. `publish` (`training.pipeline`): the manifest, the rename into bundles/, CURRENT.
@@ -24,6 +25,7 @@ import numpy as np
 import numpy.typing as npt
 from gensim.models import Word2Vec
 
+from training.concepts import Previous, fit_concepts
 from training.config import TrainConfig
 from training.corpus import PostingCorpus
 from training.duties import TitleTable, title_table
@@ -33,15 +35,24 @@ from training.phrases import learn_phrases, phrase_filter
 from training.progress import Progress
 from training.skipgram import structure_problems
 from widen.decisions.decision import DecisionSet
-from widen.errors import BadInput
+from widen.errors import BadInput, BundleError
 from widen.expansion.lexicon import Lexicon
 from widen.model.bundle import BundleWriter
+from widen.model.concepts import Matrix, PostingVectors
 from widen.model.manifest import Manifest
 from widen.model.neighbours import normalise_rows, top_k_table
 from widen.model.phrases import Phraser, PhraseRow
 from widen.model.store import Store
 
-__all__ = ["Phrased", "read_and_phrase", "titles_and_duties", "write_files", "neighbour_table", "judge"]
+__all__ = [
+    "Phrased",
+    "read_and_phrase",
+    "titles_and_duties",
+    "write_files",
+    "learn_concepts",
+    "neighbour_table",
+    "judge",
+]
 
 
 @dataclass(frozen=True)
@@ -119,11 +130,69 @@ def write_files(
     return normed
 
 
+def _previous(store: Store) -> Previous | None:
+    """The serving bundle's concepts, to carry over; None when it has none or cannot be opened."""
+    version = store.current_version()
+    if version is None:
+        return None
+    try:
+        bundle = store.open_bundle(version)
+    except BundleError:
+        return None
+    if bundle.concepts is None:
+        return None
+    return Previous(version, bundle.concepts, np.asarray(bundle.normed_vectors), bundle.keys)
+
+
+def learn_concepts(
+    writer: BundleWriter, model: Word2Vec, normed: npt.NDArray[np.float32], postings: Path, phrased: Phrased,
+    store: Store, version: str, config: TrainConfig, out: IO[str],
+) -> dict[str, object]:  # fmt: skip
+    """Concepts of what postings say, carried over from the serving bundle where they can be."""
+    settings = config.concepts
+    if not settings.enabled:
+        return {}
+    wv = model.wv
+    counts = np.asarray([wv.get_vecattr(k, "count") for k in wv.index_to_key], dtype=np.float64)
+    leave_out = frozenset(phrased.first.protected)
+
+    def recipe(common: Matrix | None) -> PostingVectors:
+        return PostingVectors(
+            normed, wv.key_to_index, counts, phrased.phraser, leave_out, settings.title_weight, settings.sif_a, common
+        )
+
+    used = phrased.first.used
+    with Progress("concepts", total=min(used, settings.sample), unit="postings", stream=out) as bar:
+        concepts, stats = fit_concepts(
+            postings, used, recipe, list(wv.index_to_key), counts, settings, version,
+            config.embedding.seed, _previous(store), bar.update,
+        )  # fmt: skip
+    writer.concepts(concepts)
+    return stats
+
+
 def neighbour_table(writer: BundleWriter, normed: npt.NDArray[np.float32], config: TrainConfig, out: IO[str]) -> None:
     """The exact top-k cosine table of every entry (`widen.model.neighbours.top_k_table`)."""
     with Progress("neighbour table", total=len(normed), unit="entries", stream=out) as bar:
         index, similarity = top_k_table(normed, config.neighbours.top_k, config.neighbours.block_rows, bar.update)
     writer.neighbours(index, similarity)
+
+
+def _lineage_problem(candidate: Lexicon, store: Store, config: TrainConfig) -> list[str]:
+    """With concept clauses on, a bundle whose concepts are not the serving bundle's lineage would send
+    tokens the index does not hold: refused until the index is tagged with it."""
+    current = store.current_version()
+    if not config.expansion.concepts or current is None:
+        return []
+    before = store.manifest(current).concepts.get("lineage")
+    now = candidate.concepts.lineage if candidate.concepts is not None else None
+    if not before or now == before:
+        return []
+    return [
+        f"concept clauses are on (expansion.concepts) and this bundle's concepts are a new lineage ({now}; the "
+        f"index holds lineage {before}): tag the postings with this bundle (widen tag --bundle {candidate.version}), "
+        f"then promote it (widen promote {candidate.version} --force)"
+    ]
 
 
 def judge(
@@ -142,7 +211,7 @@ def judge(
     candidate_score = score_pairs(candidate, pairs, config.gate) if pairs else None
     current_score = score_pairs(serving, pairs, config.gate) if pairs is not None and serving is not None else None
     impact = current_impact = None
-    problems = structure_problems(model)
+    problems = structure_problems(model) + _lineage_problem(candidate, store, config)
     if config.gate.queries and not problems:
         impact, current_impact = search_impact(
             candidate,
@@ -158,7 +227,7 @@ def judge(
 
 def draft_manifest(
     version: str, created_at: str, corpus_path: Path, corpus_sha: str, corpus: PostingCorpus, phrased: Phrased,
-    model: Word2Vec, duties: TitleTable, config: TrainConfig,
+    model: Word2Vec, duties: TitleTable, config: TrainConfig, concepts: dict[str, object],
 ) -> Manifest:  # fmt: skip
     """The manifest as far as it is known before the gate: what the bundle holds and how it was made."""
     first = phrased.first
@@ -183,5 +252,6 @@ def draft_manifest(
             "title_phrases": len(phrased.titles),
             "protected_count": len(first.protected),
             "duties": duties.stats,
+            "concepts": concepts,
         }
     )

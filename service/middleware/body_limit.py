@@ -11,19 +11,20 @@ _WITH_BODY = ("POST", "PUT", "PATCH", "DELETE")
 
 
 class BodyLimit:
-    """Reads a body once, checks it against `limit` bytes, and replays it to the app (an ASGI body is
-    taken once). Parameters: the app; `limit`."""
+    """Reads a body once, checks it against `limit` bytes (or the path's own limit in `by_path`), and
+    replays it to the app (an ASGI body is taken once). Parameters: the app; `limit`; `by_path`."""
 
-    def __init__(self, app: ASGIApp, limit: int) -> None:
-        self.app, self.limit = app, limit
+    def __init__(self, app: ASGIApp, limit: int, by_path: dict[str, int] | None = None) -> None:
+        self.app, self.limit, self.by_path = app, limit, dict(by_path or {})
 
     async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
         if scope["type"] != "http" or scope["method"] not in _WITH_BODY:
             await self.app(scope, receive, send)
             return
-        body = await _read_limited(receive, self.limit)
+        limit = self.by_path.get(scope["path"], self.limit)
+        body = await _read_limited(receive, limit)
         if body is None:
-            response = error_response(413, "body_too_large", f"the body is over {self.limit} bytes")
+            response = error_response(413, "body_too_large", f"the body is over {limit} bytes")
             await response(scope, receive, send)
             return
         await self.app(scope, _replay(body), send)

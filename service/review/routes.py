@@ -54,6 +54,12 @@ def _phrase_page(
     active = listed_decisions(state)
     views = [replace(v, decisions=[d for d in active if d.phrase == v.text]) for v in views]
     values.update(result=result, views=views)
+    if serving.lexicon.concepts is not None:
+        with_concepts = expand(
+            serving.lexicon, state.decisions, q, options.with_request(concepts=True), cache=serving.cache
+        )
+        jobs = [v.text for v in views if v.kind in ("phrase", "term", "unknown")]
+        values.update(concepts=with_concepts.concepts, concepts_sent=options.concepts, concept_phrase=(jobs or [""])[0])
     if compare and compare != serving.version:
         try:
             other = state.serving_of(compare)  # judged with the options serving now, side by side

@@ -87,6 +87,7 @@ def _expanded(state: ServiceState, serving: Serving, decisions: DecisionSet, cal
         operator=asked.operator,
         places=asked.places,
         match=asked.match,
+        concepts=asked.concepts,
     )
     return expand(serving.lexicon, decisions, call.query, options, explain=asked.explain, cache=serving.cache)
 

@@ -20,7 +20,7 @@ def bundles(args: argparse.Namespace) -> int:
     if not infos:
         print(f"no bundles in {args.store}")
         return EXIT_OK
-    header = ("version", "status", "created_at", "gate", "forced")
+    header = ("version", "status", "created_at", "gate", "forced", "concepts")
     rows = [
         (
             i.version,
@@ -28,6 +28,7 @@ def bundles(args: argparse.Namespace) -> int:
             i.created_at,
             "n/a" if i.gate_score is None else f"{i.gate_score:.3f}",
             "yes" if i.forced else "",
+            i.concept_lineage or "none",
         )
         for i in infos
     ]

@@ -58,8 +58,9 @@ def evaluate(args: argparse.Namespace) -> int:
     curve = {}
     for window in days or [None]:
         what = f"the last {window} days of {args.postings}" if window else str(args.postings)
-        print(f"indexing {what} (reused when unchanged) ...", file=sys.stderr)
-        index = SearchIndex(args.postings, store.search_indexes, window)
+        tagged = " with the bundle's concept tokens" if lexicon.concepts is not None else ""
+        print(f"indexing {what}{tagged} (reused when unchanged) ...", file=sys.stderr)
+        index = SearchIndex(args.postings, store.search_indexes, window, lexicon if tagged else None)
         report = run_evaluation(lexicon, decisions, index, queries, lexicon.options, ks, truth, rm3)
         if truth is not None and any(q.extra.get("part") for q in queries):
             report["title_scorecard"] = query_scorecard(lexicon, truth, queries, lexicon.options)

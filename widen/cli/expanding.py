@@ -26,6 +26,7 @@ def expand(args: argparse.Namespace) -> int:
             strict=True if args.strict else None,
             places=args.places,
             match=args.match,
+            concepts=True if args.concepts else None,
         )
     except ValidationError as exc:
         raise BadInput(str(exc.errors()[0]["msg"]) + f" ({exc.errors()[0]['loc'][0]})") from exc

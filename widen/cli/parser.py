@@ -6,7 +6,7 @@ import argparse
 import os
 from pathlib import Path
 
-from widen.cli import bundles, evaluating, expanding, reviewing, serving, training
+from widen.cli import bundles, evaluating, expanding, reviewing, serving, tagging, training
 
 __all__ = ["build_parser"]
 
@@ -115,7 +115,26 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument(
         "--match", choices=["job", "all"], help="require every segment but noise words (default) or only the job"
     )
+    p.add_argument("--concepts", action="store_true", help="add concept clauses (the index must hold the tokens)")
     p.set_defaults(handler=expanding.expand)
+
+    p = sub.add_parser(
+        "tag",
+        help="write each posting's concept tokens, for the board's index (JSON Lines)",
+        formatter_class=_FORMAT,
+        description="Tag every posting of a dump (JSON Lines or CSV, plain or gzip; fields id, title, "
+        "description) with its concept tokens from the serving bundle: one JSON object a line, "
+        '{"id": ..., "concepts": "wc32n3 wc128n70 wc512n301"}, to index in a field of its own.\n'
+        "Tag again when `widen bundles` shows a new concept lineage (docs/concepts.md).",
+        epilog="examples:\n"
+        "  widen tag --corpus build/demo/open_postings.jsonl --store build/store --out build/tags.jsonl\n"
+        "  widen tag --corpus /data/new-postings.jsonl --store /srv/widen > tags.jsonl",
+    )
+    p.add_argument("--corpus", type=Path, required=True, help="the postings to tag")
+    p.add_argument("--store", type=Path, required=True)
+    p.add_argument("--bundle", help="a bundle version other than the current one")
+    p.add_argument("--out", type=Path, help="the output file (written whole or not at all); default stdout")
+    p.set_defaults(handler=tagging.tag)
 
     p = sub.add_parser(
         "evaluate",

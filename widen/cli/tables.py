@@ -32,5 +32,13 @@ def render_expansion(result: ExpansionResult) -> str:
                 + [(s, d.phrase, f"{d.similarity:.3f}", d.reason, DROP_REASONS[d.reason]) for s, d in dropped]
             )
         )
+    if result.concepts:
+        lines += ["", "concepts (what postings say; the index's concept field):"]
+        lines.append(
+            table(
+                [("token", "similarity", "weight", "its postings' titles")]
+                + [(c.token, f"{c.similarity:.3f}", f"{c.weight:.3f}", ", ".join(c.label[:3])) for c in result.concepts]
+            )
+        )
     lines += ["", "query text:", result.query_text]
     return "\n".join(lines)

@@ -3,31 +3,45 @@
 BM25 (tantivy's scoring), the engine's own analysis with English stemming (`en_stem`: words
 lower-cased and stemmed, the strongest plain set-up the engine offers), title weighted above
 description. Built once per postings file and window: the index folder is named by the file's
-sha256 (and the window), and reused.
+sha256 (and the window), and reused. With a `Tagger`, every posting is also tagged with its
+concept tokens in a `concepts` field of its own, as a board's indexing pipeline would (`widen tag`);
+the folder is then named by the bundle that tagged it too.
 """
 
 from __future__ import annotations
 
 import json
 import shutil
-from collections.abc import Iterator
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 from datetime import date, timedelta
 from pathlib import Path
+from typing import Protocol
 
 import tantivy
 
 from widen.model.bundle import sha256_file
 from widen.text.tokenize import normalise
 
-__all__ = ["SearchIndex", "Hit", "TITLE_BOOST", "FIELDS"]
+__all__ = ["SearchIndex", "Hit", "Tagger", "TITLE_BOOST", "FIELDS", "CONCEPT_FIELD"]
 
 #: How much a title match outweighs a description match (common practice, no source).
 TITLE_BOOST = 3.0
 FIELDS = ["title", "description"]
 #: Changes whenever the schema or the analysis changes; an index of another version is rebuilt.
-SCHEMA_VERSION = 2
+SCHEMA_VERSION = 3
 _MARKER = "widen-index.json"
+#: The index field the concept tokens go in (the expansion option `concept_field` names it in queries).
+CONCEPT_FIELD = "concepts"
+_TAG_BATCH = 1024
+
+
+class Tagger(Protocol):
+    """What tags postings with concept tokens (`widen.expansion.lexicon.Lexicon.tag`)."""
+
+    version: str
+
+    def tag(self, postings: Sequence[tuple[str, str]]) -> list[list[str]]: ...
 
 
 @dataclass(frozen=True)
@@ -76,13 +90,13 @@ class SearchIndex:
     """Open (or build) the index of `postings` under `folder`. Parameters: the dump, the folder, and
     `days` to index only the postings of the dump's last `days` days (the open postings)."""
 
-    def __init__(self, postings: Path, folder: Path, days: int | None = None) -> None:
+    def __init__(self, postings: Path, folder: Path, days: int | None = None, tagger: Tagger | None = None) -> None:
         self.sha256 = sha256_file(postings)
-        name = self.sha256[:32] + (f"-{days}d" if days else "")
+        name = self.sha256[:32] + (f"-{days}d" if days else "") + (f"-c{tagger.version}" if tagger else "")
         self.path = Path(folder) / name
         marker = self.path / _MARKER
         if not marker.is_file() or json.loads(marker.read_text()).get("schema") != SCHEMA_VERSION:
-            self._build(postings, days)
+            self._build(postings, days, tagger)
         self._open()
 
     def _open(self) -> None:
@@ -91,6 +105,8 @@ class SearchIndex:
         self.analyzer = _analyzer()
         meta = json.loads((self.path / _MARKER).read_text(encoding="utf-8"))
         self.size = int(meta["postings"])
+        #: The bundle whose concept tokens the index holds; None for an index without them.
+        self.tagged_by: str | None = meta.get("tagged_by")
         self._ids: set[str] | None = None
 
     @classmethod
@@ -123,31 +139,50 @@ class SearchIndex:
         builder.add_text_field("description", stored=True, tokenizer_name="en_stem")
         builder.add_text_field("location", stored=True, tokenizer_name="raw", index_option="basic")
         builder.add_text_field("employer", stored=True, tokenizer_name="raw", index_option="basic")
+        builder.add_text_field(CONCEPT_FIELD, stored=False, tokenizer_name="default", index_option="freq")
         return builder.build()
 
-    def _build(self, postings: Path, days: int | None) -> None:
+    def _build(self, postings: Path, days: int | None, tagger: Tagger | None) -> None:
         partial = self.path.with_name(self.path.name + ".partial")
         shutil.rmtree(partial, ignore_errors=True)
         partial.mkdir(parents=True)
         index = tantivy.Index(self._schema(), path=str(partial))
         writer = index.writer(heap_size=100_000_000, num_threads=1)
         count = 0
+        batch: list[dict[str, str]] = []
+
+        def flush() -> None:
+            pairs = [(d["title"], d["description"]) for d in batch]
+            tokens = tagger.tag(pairs) if tagger is not None else [[] for _ in batch]
+            for d, found in zip(batch, tokens, strict=True):
+                writer.add_document(tantivy.Document(**d, **{CONCEPT_FIELD: " ".join(found)}))
+            batch.clear()
+
         for p in _rows(postings, days):
-            try:
-                doc = tantivy.Document(
-                    id=str(p["id"]),
-                    title=str(p.get("title") or ""),
-                    description=normalise(str(p.get("description") or "")),
-                    location=str(p.get("location") or ""),
-                    employer=str(p.get("employer") or ""),
-                )
-            except (KeyError, TypeError):
+            if "id" not in p:
                 continue  # the same records widen train skips
-            writer.add_document(doc)
+            batch.append(
+                {
+                    "id": str(p["id"]),
+                    "title": str(p.get("title") or ""),
+                    "description": normalise(str(p.get("description") or "")),
+                    "location": str(p.get("location") or ""),
+                    "employer": str(p.get("employer") or ""),
+                }
+            )
             count += 1
+            if len(batch) >= _TAG_BATCH:
+                flush()
+        flush()
         writer.commit()
         writer.wait_merging_threads()
-        meta = {"sha256": self.sha256, "postings": count, "days": days, "schema": SCHEMA_VERSION}
+        meta = {
+            "sha256": self.sha256,
+            "postings": count,
+            "days": days,
+            "schema": SCHEMA_VERSION,
+            "tagged_by": tagger.version if tagger is not None else None,
+        }
         (partial / _MARKER).write_text(json.dumps(meta) + "\n")
         shutil.rmtree(self.path, ignore_errors=True)
         partial.rename(self.path)

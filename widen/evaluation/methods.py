@@ -11,6 +11,9 @@ Each method is a query a front end could send to the same index, for the same se
 - `widen`: the recommended query, widen's `full_query`: `(all_required)^10 OR (query_text) OR
   (words)^0.1`; `widen_alone`, query_text as it is; `bag_of_words_widen`, widen's clauses added to a
   front end's own bag of words, `(bag_of_words)^10 OR (query_text)`;
+- `widen_concepts`: widen's `full_query` with the concept clauses (`widen.expansion.concept_clauses`),
+  and `bag_of_words_concepts`, `(bag of words) OR (concept clauses)`: on an index whose postings carry
+  their concept tokens (the bundle's own);
 - `curated`: a perfect hand-kept list of each job's equivalent titles (the board's truth), applied
   the way a search team applies one: the longest listed title found in the words of the query's
   job segments (whichever way widen split them) is searched with the list's other names for it,
@@ -34,7 +37,7 @@ from widen.expansion.result import Clause, ExpansionResult
 from widen.text.forms import phrase_of_text
 from widen.text.tokenize import tokens
 
-__all__ = ["METHODS", "CuratedList", "bag_of_words_text", "method_queries"]
+__all__ = ["METHODS", "CONCEPT_METHODS", "CuratedList", "bag_of_words_text", "method_queries"]
 
 #: Every method, in the order of the report's tables, with what it is in words.
 METHODS: dict[str, str] = {
@@ -46,7 +49,11 @@ METHODS: dict[str, str] = {
     "widen_alone": "widen's query_text alone",
     "bag_of_words_widen": "(bag of words)^10 OR (query_text): widen added to a front end's own query",
     "curated": "a perfect hand-kept list of each job's equivalent titles, in place of widen's neighbours",
+    "widen_concepts": "widen's full_query with concept clauses: ... OR (concepts)",
+    "bag_of_words_concepts": "(bag of words) OR (concept clauses)",
 }
+#: The methods that need an index whose postings carry their concept tokens.
+CONCEPT_METHODS = ("widen_concepts", "bag_of_words_concepts")
 
 
 def bag_of_words_text(query: str) -> str:
@@ -128,8 +135,10 @@ def method_queries(
     curated: CuratedList | None,
     methods: Sequence[str] = tuple(METHODS),
     names: Mapping[str, tuple[str, str]] | None = None,
+    with_concepts: ExpansionResult | None = None,
 ) -> tuple[dict[str, tantivy.Query | None], str]:
-    """The query of every method for one seeker's text, and the all-required text (the exact match)."""
+    """The query of every method for one seeker's text, and the all-required text (the exact match);
+    `with_concepts`, widen's result with the concept clauses on, for the concept methods."""
 
     def parse(text: str) -> tantivy.Query | None:
         return index.parse(text) if text.strip() else None
@@ -147,6 +156,10 @@ def method_queries(
         plain = built["bag_of_words"]
         built["rm3"] = rm3.query(index, plain, bow) if plain is not None else None
         built["rm3_merged"] = _merged(index, built["all_required"], built["rm3"])
+    if with_concepts is not None:
+        built["widen_concepts"] = parse(with_concepts.full_query)
+        extra = f" OR ({with_concepts.concept_text})" if with_concepts.concept_text else ""
+        built["bag_of_words_concepts"] = parse(f"({bow}){extra}" if bow else with_concepts.concept_text)
     if curated is not None and "curated" in methods:
         curated_text = curated.query_text(result, options, names or {})
         built["curated"] = parse(merged_text(exact, curated_text, words=segments_words(result.segments)))

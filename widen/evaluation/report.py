@@ -10,7 +10,7 @@ from widen.evaluation.metrics import trec_order
 
 __all__ = ["write_report", "write_windows", "methods_table"]
 
-_SHOWN = ("bag_of_words", "rm3", "widen", "bag_of_words_widen")
+_SHOWN = ("bag_of_words", "rm3", "widen", "bag_of_words_widen", "widen_concepts")
 _CUTS = (10, 25, 50, 100)
 
 
@@ -133,7 +133,7 @@ def _parts_tables(report: dict[str, Any]) -> list[str]:
     expansions against the truth, the same way."""
     if not report.get("parts"):
         return []
-    shown = [m for m in ("bag_of_words", "rm3", "widen", "curated") if m in report["methods"]]
+    shown = [m for m in ("bag_of_words", "rm3", "widen", "widen_concepts", "curated") if m in report["methods"]]
     lines = [
         "## By part and frequency band of the query's title",
         "",

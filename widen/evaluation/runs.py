@@ -19,7 +19,7 @@ from typing import Any
 
 from widen.decisions.decision import DecisionSet
 from widen.evaluation.index import SearchIndex
-from widen.evaluation.methods import METHODS, CuratedList, method_queries
+from widen.evaluation.methods import CONCEPT_METHODS, METHODS, CuratedList, method_queries
 from widen.evaluation.metrics import ndcg_at, recall_at, reciprocal_rank, trec_order
 from widen.evaluation.rm3 import RM3
 from widen.evaluation.significance import paired_randomisation
@@ -103,7 +103,12 @@ def evaluate(
 
     widen's query names places in the index's own fields (`places = "field"`): the index has them."""
     options = options.with_request(places=places)
-    chosen = [m for m in (methods or METHODS) if m != "curated" or truth is not None]
+    tagged = index.tagged_by is not None and index.tagged_by == lexicon.version and lexicon.concepts is not None
+    chosen = [
+        m
+        for m in (methods or METHODS)
+        if (m != "curated" or truth is not None) and (m not in CONCEPT_METHODS or tagged)
+    ]
     curated = CuratedList(truth) if truth is not None else None
     names = [f"recall@{k}" for k in ks] + ["ndcg@10", "mrr", "exact_first"]
     runs, qrels, rows = _run(lexicon, decisions, index, queries, options, ks, curated, rm3 or RM3(), chosen)
@@ -155,6 +160,8 @@ def _run(
     """Every method's run of every judged query, the judgements, and one row of scores a query."""
     cache = ExpansionCache(lexicon)
     indexed = index.ids
+    wanted = any(m in CONCEPT_METHODS for m in chosen)
+    with_concepts = options.with_request(concepts=True) if wanted else None
     runs: dict[str, dict[str, dict[str, float]]] = {m: {} for m in chosen}
     qrels: dict[str, dict[str, int]] = {}
     rows: list[dict[str, Any]] = []
@@ -164,7 +171,10 @@ def _run(
             continue
         qrels[q.id] = relevant
         result = expand(lexicon, decisions, q.query, options, cache=cache)
-        built, exact_text = method_queries(index, q.query, result, options, feedback, curated, chosen, lexicon.names)
+        conceptual = expand(lexicon, decisions, q.query, with_concepts, cache=cache) if with_concepts else None
+        built, exact_text = method_queries(
+            index, q.query, result, options, feedback, curated, chosen, lexicon.names, conceptual
+        )
         exact = index.matching(exact_text) if exact_text else set()
         row: dict[str, Any] = {"id": q.id, "query": q.query, "family": q.family, "kind": q.kind, "base": q.base}
         row.update({k: q.extra[k] for k in ("band", "part") if k in q.extra})

@@ -28,7 +28,7 @@ import numpy.typing as npt
 
 from widen.expansion.lexicon import EntryFacts, Lexicon
 from widen.expansion.options import ExpansionOptions
-from widen.expansion.result import Clause, Dropped, Expansion, ModelInfo, Segment
+from widen.expansion.result import Clause, ConceptClause, Dropped, Expansion, ModelInfo, Segment
 from widen.expansion.segment import Vocabulary
 from widen.expansion.spelling import Speller, no_correction
 
@@ -98,6 +98,8 @@ class Answer(NamedTuple):
     clauses: list[Clause]
     query_text: str
     full_query: str
+    concepts: tuple[ConceptClause, ...] = ()
+    concept_text: str = ""
 
 
 class _Table(dict[K, V]):

@@ -11,7 +11,8 @@ A query passes through each stage once, in order:
 3. filters (`filters`): which candidates the span keeps, and why each other one is dropped;
 4. weights (`weights`): each clause's weight, corrections, pattern spellings, the clause budget;
 5. the result (`result`): segments and clauses;
-6. the query text (`query_text`): `query_text` and `full_query` in the engine's syntax.
+6. the query text (`query_text`): `query_text` and `full_query` in the engine's syntax, with the
+   concept clauses (`concept_clauses`) where the option is on.
 
 How alike two titles are decides the relation hint: two titles whose duties are as alike as one
 title's own two halves are in this bundle are `equivalent`; less alike, `related`; much less,
@@ -25,6 +26,7 @@ from collections.abc import Sequence
 from widen.decisions.decision import DecisionSet, PhraseDecisions
 from widen.expansion.cache import AloneKey, Answer, DecidedKey, ExpansionCache, SpanKey, SpanOutcome
 from widen.expansion.candidates import find_candidates, span_vector
+from widen.expansion.concept_clauses import concept_clauses, concept_text
 from widen.expansion.context import QueryContext, query_contexts
 from widen.expansion.filters import Situation, decide, sift
 from widen.expansion.lexicon import Lexicon
@@ -72,7 +74,10 @@ def expand(
         outcome = _span_outcome(lexicon, cache, span, decisions, options, explain, context)
         kept = corrected(fix, outcome.kept) if fix is not None else list(outcome.kept)
         expanded.append((kept + pattern_spellings(cache, span, options), list(outcome.dropped)))
-    answer = _answer(lexicon, spans, expanded, options, explain)
+    blocked = frozenset().union(
+        *(decisions.get(s.typed or phrase_of_key(s.key)).blocked for s in spans if s.kind in JOBS)
+    )
+    answer = _answer(lexicon, spans, expanded, options, explain, blocked)
     if alone is not None:
         cache.alone.keep(alone, answer)
     return _result(lexicon, cache, query, answer)
@@ -161,8 +166,10 @@ def _answer(
     expanded: Sequence[tuple[list[Expansion], list[Dropped]]],
     options: ExpansionOptions,
     explain: bool,
+    blocked: frozenset[str] = frozenset(),
 ) -> Answer:
-    """Stages 5 and 6: the segments and clauses within the clause budget, and the query text."""
+    """Stages 5 and 6: the segments and clauses within the clause budget, and the query text (with the
+    concept clauses, but those in `blocked`)."""
     originals = {span.typed or phrase_of_key(span.key) for span in spans if span.kind != "noise"}
     keep = within_budget([kept for kept, _ in expanded], len(originals), options)
     boost = options.boost_scale
@@ -205,7 +212,12 @@ def _answer(
         )
     query_text = render(clauses, segments, options, lex.names)
     full = merged_text(segments_baseline(segments), query_text, words=segments_words(segments))
-    return Answer(segments, clauses, query_text, full)
+    concepts = concept_clauses(lex, spans, clauses, blocked, options)
+    if not concepts:
+        return Answer(segments, clauses, query_text, full)
+    alone = concept_text(concepts, options)
+    # query_text: the concepts only rank what its required groups match; full_query: they also find.
+    return Answer(segments, clauses, f"{query_text} ({alone})", f"{full} OR ({alone})", tuple(concepts), alone)
 
 
 def _result(lex: Lexicon, cache: ExpansionCache, query: str, answer: Answer) -> ExpansionResult:
@@ -216,6 +228,8 @@ def _result(lex: Lexicon, cache: ExpansionCache, query: str, answer: Answer) -> 
         clauses=answer.clauses,
         query_text=answer.query_text,
         full_query=answer.full_query,
+        concepts=list(answer.concepts),
+        concept_text=answer.concept_text,
     )
 
 

@@ -8,6 +8,7 @@ entry, per set of options) is kept by `widen.expansion.cache.ExpansionCache`, no
 from __future__ import annotations
 
 import re
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -15,6 +16,7 @@ import numpy.typing as npt
 
 from widen.expansion.options import ExpansionOptions, options_of
 from widen.model.bundle import Bundle
+from widen.model.concepts import ConceptSet, PostingVectors, tag_rows
 from widen.text.forms import PHRASE_JOINER, key_of_phrase, phrase_of_key, phrase_of_text, spelling_key
 from widen.text.tokenize import is_number
 
@@ -107,8 +109,22 @@ class Lexicon:
         self._sizes = duties.sizes
         self._same_job = duties.same_job
         self._chance = duties.chance
+        #: The concepts postings are tagged with, and the recipe of their vectors (None without concepts).
+        self.concepts: ConceptSet | None = bundle.concepts
+        self.posting_vectors: PostingVectors | None = None
+        if self.concepts is not None:
+            c = self.concepts
+            self.posting_vectors = PostingVectors(
+                self.normed, self.index, self.counts, self.phraser, self.protected, c.title_weight, c.sif_a, c.common
+            )
         #: Every word of every place and employer name.
         self.name_words: frozenset[str] = frozenset(w for k in self.protected for w in k.split(PHRASE_JOINER))
+
+    def tag(self, postings: Sequence[tuple[str, str]]) -> list[list[str]]:
+        """The concept tokens of each (title, description), one list a posting (empty without concepts)."""
+        if self.concepts is None or self.posting_vectors is None:
+            return [[] for _ in postings]
+        return tag_rows(self.concepts, self.posting_vectors.of_postings(postings))
 
     def has_duties(self, j: int) -> bool:
         return self.with_duties[j]

@@ -146,6 +146,16 @@ class ExpansionOptions(BaseModel):
     # by its words, up to this many words (0: each word on its own).
     compose_runs: int = Field(default=8, ge=0, le=20)
     max_tokens: int = Field(default=32, ge=1, le=256, description="tokens of a query looked at")
+    # Concept clauses (`widen.expansion.concept_clauses`): the concepts nearest the query, as clauses on
+    # the index's concept field. Off until the team's index holds that field (`widen tag`).
+    concepts: bool = Field(default=False, description="add concept clauses (the index must hold the field)")
+    concept_field: str = Field(default="concepts", pattern=r"^[A-Za-z0-9_-]+$")
+    concept_nearest: int = Field(default=5, ge=1, le=50, description="concepts of each size a query adds")
+    # Weight of a concept of each size, coarse to fine (a finer concept says more), times its cosine to
+    # the query and times `concept_scale`; always below every clause of the seeker's words and expansions.
+    concept_weights: tuple[float, ...] = Field(default=(0.1, 0.2, 0.4, 0.8), min_length=1, max_length=6)
+    concept_scale: float = Field(default=0.5, gt=0.0, le=1.0)
+    concept_min_similarity: float = Field(default=0.3, ge=-1.0, le=1.0)
 
     def with_request(
         self,
@@ -156,6 +166,7 @@ class ExpansionOptions(BaseModel):
         strict: bool | None = None,
         places: str | None = None,
         match: str | None = None,
+        concepts: bool | None = None,
     ) -> ExpansionOptions:
         """These options narrowed by what one request asks for (CLI flags, API fields, page); None keeps."""
         asked: dict[str, Any] = {
@@ -166,6 +177,7 @@ class ExpansionOptions(BaseModel):
             "strict": strict,
             "places": places,
             "match": match,
+            "concepts": concepts,
         }
         update = {k: v for k, v in asked.items() if v is not None}
         if not update:

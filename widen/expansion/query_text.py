@@ -35,6 +35,7 @@ __all__ = [
     "BASELINE_BOOST",
     "WORDS_BOOST",
     "JOBS",
+    "quoted",
 ]
 
 #: How a front end keeps the seeker's exact matches first: the baseline query, boosted this much,
@@ -55,6 +56,11 @@ def _quote(phrase: str) -> str:
     if not cleaned.isprintable():
         cleaned = "".join(ch for ch in cleaned if ch.isprintable())
     return f'"{cleaned}"'
+
+
+def quoted(phrase: str) -> str:
+    """A phrase quoted so that no input can end the quotes early."""
+    return _quote(phrase)
 
 
 @lru_cache(maxsize=65536)

@@ -16,6 +16,7 @@ __all__ = [
     "Dropped",
     "Segment",
     "Clause",
+    "ConceptClause",
     "ExpansionResult",
     "DropReason",
     "DROP_REASONS",
@@ -155,6 +156,14 @@ class Clause(_Frozen):
     segment: int = Field(description="index of the segment this clause belongs to")
 
 
+class ConceptClause(_Frozen):
+    token: str = Field(description="the concept's token, as `widen tag` writes it into the index's concept field")
+    size: int = Field(description="how many concepts its granularity has (more: finer)")
+    similarity: float = Field(description="cosine of the query's vector and the concept's centroid")
+    weight: float = Field(description="boost of this clause; always below every clause of the query's words")
+    label: list[str] = Field(default=[], description="the titles its postings name most")
+
+
 class ExpansionResult(_Frozen):
     query: str
     model: ModelInfo
@@ -169,5 +178,9 @@ class ExpansionResult(_Frozen):
         default="",
         description="the whole query to send for a front end that sends widen's: the seeker's words all "
         "required, boosted 10 (exact matches first), OR query_text, OR the seeker's words as optional terms "
-        "at 0.1 (never fewer postings than the engine's default query)",
+        "at 0.1 (never fewer postings than the engine's default query), OR the concept clauses",
     )
+    concepts: list[ConceptClause] = Field(
+        default=[], description="the concepts nearest the query, where the `concepts` option is on"
+    )
+    concept_text: str = Field(default="", description="the concept clauses alone, OR'ed, on the concept field")

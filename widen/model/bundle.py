@@ -14,6 +14,8 @@ bundles/VERSION/       one published bundle, never changed after publication
   title_index.npy / title_similarity.npy   per title, the titles with the most alike duties
   (bundles made before the title table have duty_rows.npy / duty_index.npy / duty_similarity.npy,
   the same table over vocabulary entries; they are read as one)
+  concepts.json / concept_centroids.npy   the concepts postings are tagged with (`widen.model.concepts`;
+  absent from bundles made without them)
 
 The store around the bundles (CURRENT, the journal, decisions, search indexes) is `widen.model.store`.
 """
@@ -31,6 +33,7 @@ from gensim.models import KeyedVectors
 from pydantic import ValidationError
 
 from widen.errors import BundleError
+from widen.model.concepts import ConceptSet
 from widen.model.manifest import FORMAT_VERSION, Manifest
 from widen.model.phrases import Phraser, PhraseRow
 from widen.text.forms import phrase_of_key
@@ -153,6 +156,9 @@ class BundleWriter:
         np.save(self.folder / TITLE_INDEX, np.asarray(index, dtype=np.int32))
         np.save(self.folder / TITLE_SIMILARITY, np.asarray(similarity, dtype=np.float32))
 
+    def concepts(self, concepts: ConceptSet) -> None:
+        concepts.write(self.folder)
+
     def finish(self, draft: Manifest) -> Manifest:
         """Write manifest.json: the draft with the sha256 of every other file; the manifest written."""
         files = {
@@ -197,6 +203,7 @@ class Bundle:
             #: key -> (field, the name as the dump writes it); empty for bundles of the first format.
             self.names: dict[str, tuple[str, str]] = {k: (v[0], v[1]) for k, v in names.get("names", {}).items()}
             self._titles()
+            self.concepts: ConceptSet | None = ConceptSet.read(self.folder)
         except (OSError, ValueError, KeyError) as exc:
             raise BundleError(f"bundle {version} cannot be opened: {exc}") from exc
         self.keys: list[str] = list(self.vectors.index_to_key)

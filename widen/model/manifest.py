@@ -79,6 +79,7 @@ class Manifest(_Part):
     title_phrases: int = 0
     protected_count: int = 0
     duties: DutiesInfo = DutiesInfo()
+    concepts: dict[str, Any] = Field(default={}, description="how the concepts were learned (widen.model.concepts)")
     gate: GateInfo | None = None
     software: dict[str, str] = {}
     seconds: dict[str, float] = {}

@@ -54,6 +54,7 @@ class BundleInfo:
     gate_score: float | None
     gate_passed: bool
     forced: bool
+    concept_lineage: str = ""  # the concept set the bundle's tokens belong to ("" without concepts)
 
     def as_dict(self) -> dict[str, Any]:
         return asdict(self)
@@ -138,7 +139,8 @@ class Store:
                 status = "rejected"
             score = gate.score if gate is not None else None
             forced = gate is not None and gate.forced
-            infos.append(BundleInfo(version, status, manifest.created_at, score, passed, forced))
+            lineage = str(manifest.concepts.get("lineage", ""))
+            infos.append(BundleInfo(version, status, manifest.created_at, score, passed, forced, lineage))
         return infos
 
     def rollback_target(self) -> str | None:
