@@ -46,6 +46,7 @@ test: lint
 bench: $(BIN)/.installed $(DEMO)/postings.jsonl
 	@command -v wrk >/dev/null 2>&1 || { [ "$$(id -u)" = 0 ] && apt-get install -y -qq wrk >/dev/null 2>&1 || (apt-get update -qq && apt-get install -y -qq wrk); } || { echo "the server benchmark needs wrk (apt-get install wrk)"; exit 1; }
 	$(BIN)/python -m bench.run --demo $(DEMO) --out build/bench
+	$(BIN)/python -m bench.concepts --out build/concepts
 
 # Both demo boards at full size, every method, the index window curve and the truth scorecard (README, "Search impact").
 evaluate: $(BIN)/.installed

@@ -79,7 +79,7 @@ def across_nights(data: Path, store: Path, versions: list[str], part: str = "rep
     from tonight's, against an index tagged tonight: what the "keep every token" share costs in search."""
     queries = [q for q in read_queries(data / "queries.jsonl") if q.extra.get("part", part) == part]
     tonight = open_store(store, versions[1]).lexicon
-    options = tonight.options.with_request(concepts=True)
+    options = tonight.options  # widen_concepts turns the clauses on; widen is without them
     row: dict[str, Any] = {"queries": len(queries), "part": part}
     for name, tagger in (("tagged_tonight", tonight), ("tagged_last_night", open_store(store, versions[0]).lexicon)):
         index = SearchIndex(data / "open_postings.jsonl", store / "search-index", tagger=tagger)
@@ -178,19 +178,24 @@ def main() -> None:
     parser.add_argument("--postings", type=int, default=1_000_000, help="posting vectors for k-means at scale")
     parser.add_argument("--sample", type=int, default=100_000)
     parser.add_argument("--reuse", action="store_true", help="use the two bundles of the last run's stores")
+    parser.add_argument("--only-stability", action="store_true", help="leave the speed figures as they were")
     args = parser.parse_args()
     args.out.mkdir(parents=True, exist_ok=True)
-    results: dict[str, Any] = {"machine": machine(), "date": time.strftime("%Y-%m-%d"), "stability": {}}
+    saved = args.out / "concepts.json"
+    results: dict[str, Any] = json.loads(saved.read_text(encoding="utf-8")) if saved.is_file() else {}
+    results.update({"machine": machine(), "date": time.strftime("%Y-%m-%d")})
+    results.setdefault("stability", {})
     for board in args.boards.split(","):
         print(f"{board}: two nights ...", file=sys.stderr, flush=True)
         results["stability"][board] = stability(board, args.out.resolve(), args.board_postings, 7, args.reuse)
         print(json.dumps(results["stability"][board]), file=sys.stderr, flush=True)
-    first = next(iter(results["stability"].values()))
-    print("tagging speed ...", file=sys.stderr, flush=True)
-    results["tagging"] = tagging_speed(Path(first["store"]), Path(first["dump"]))
-    print("k-means at scale ...", file=sys.stderr, flush=True)
-    results["kmeans"] = kmeans_at_scale(args.postings, args.sample, list(load_config(None).concepts.sizes))
-    (args.out / "concepts.json").write_text(json.dumps(results, indent=2) + "\n", encoding="utf-8")
+    if not args.only_stability:
+        first = next(iter(results["stability"].values()))
+        print("tagging speed ...", file=sys.stderr, flush=True)
+        results["tagging"] = tagging_speed(Path(first["store"]), Path(first["dump"]))
+        print("k-means at scale ...", file=sys.stderr, flush=True)
+        results["kmeans"] = kmeans_at_scale(args.postings, args.sample, list(load_config(None).concepts.sizes))
+    saved.write_text(json.dumps(results, indent=2) + "\n", encoding="utf-8")
     print(json.dumps(results, indent=2))
 
 

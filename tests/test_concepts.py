@@ -19,6 +19,7 @@ from training.config import load_config
 from widen.cli import main
 from widen.decisions.decision import DecisionSet, PhraseDecisions
 from widen.evaluation.index import SearchIndex
+from widen.evaluation.runs import evaluate, read_queries
 from widen.model.concepts import ConceptSet, unit_rows
 from widen.model.store import Store
 
@@ -182,6 +183,17 @@ def test_concepts_carry_over_to_the_next_nights_bundle(demo_dir: Path, tmp_path:
     lineages = {i.version: i.concept_lineage for i in Store(store).listing()}  # what `widen bundles` shows
     assert lineages[first.version] == lineages[second.version] == one.lexicon.concepts.lineage
     assert lineages[refused.version] not in ("", lineages[second.version])
+    # Last night's index still serves tonight's concept clauses (same lineage); a new lineage's does not.
+    index = SearchIndex(demo_dir / "open_postings.jsonl", tmp_path / "index", tagger=one.lexicon)
+    queries = read_queries(demo_dir / "queries.jsonl")[:30]
+    methods = ("widen", "widen_concepts")
+    tonight = evaluate(two.lexicon, DecisionSet(), index, queries, two.options, methods=methods)
+    assert tonight["methods"]["widen_concepts"]["recall@100"] >= tonight["methods"]["widen"]["recall@100"] - 0.02
+    other = open_store(store, refused.version)
+    assert (
+        "widen_concepts"
+        not in evaluate(other.lexicon, DecisionSet(), index, queries, other.options, methods=methods)["methods"]
+    )
 
 
 def test_review_page_shows_concepts_and_blocks_one(trained_store: Path, tmp_path: Path) -> None:

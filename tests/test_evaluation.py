@@ -47,8 +47,9 @@ def _read_qrels(path: Path) -> dict[str, dict[str, int]]:
 
 def _evaluated(store: Path, board: Path, out: Path, folder: Path) -> tuple[dict[str, Any], Path]:
     queries = read_queries(board / "queries.jsonl")
-    index = SearchIndex(board / "open_postings.jsonl", folder)
     lexicon = Lexicon(Store(store).open_bundle())
+    # Tagged with the bundle's concepts, as `widen evaluate` does: every method, the concept ones too.
+    index = SearchIndex(board / "open_postings.jsonl", folder, tagger=lexicon)
     truth = json.loads((board / "truth.json").read_text(encoding="utf-8"))
     report = evaluate(lexicon, DecisionSet(), index, queries, lexicon.options, truth=truth)
     write_report(report, out, lexicon.version, truth["board"])

@@ -141,6 +141,29 @@ def _sample(postings: Path, used: int, size: int) -> Iterator[tuple[list[str], l
                 return
 
 
+def _sampled_vectors(
+    postings: Path,
+    used: int,
+    recipe: Callable[[Matrix | None], PostingVectors],
+    config: ConceptsSection,
+    progress: Callable[[int], None],
+) -> tuple[Matrix, list[str], Matrix | None]:
+    """The sampled postings' vectors (those with a word the bundle knows), their titles, and the
+    dump's common direction (None when it is not taken out)."""
+    plain = recipe(None)
+    parts, titles = [], []
+    for head, body, title in _sample(postings, used, config.sample):
+        title_rows = plain.rows_of(head)
+        parts.append(plain.parts(title_rows, title_rows + plain.rows_of(body)))
+        titles.append(title)
+        progress(1)
+    texts = np.stack([p[1] for p in parts]) if parts else np.zeros((0, plain.normed.shape[1]), np.float32)
+    common = _common(unit_rows(texts)) if config.remove_common else None
+    vectors = recipe(common).combine(np.stack([p[0] for p in parts]), texts) if parts else texts
+    known = np.any(vectors != 0, axis=1)
+    return vectors[known], [t for t, k in zip(titles, known.tolist(), strict=True) if k], common
+
+
 def fit_concepts(
     postings: Path,
     used: int,
@@ -156,26 +179,11 @@ def fit_concepts(
     """The concepts of a dump from the scratch file of its postings: `recipe(common)` gives the posting
     vectors of the bundle being trained; `previous`, the serving bundle's concepts."""
     started = time.monotonic()
-    plain = recipe(None)
-    parts, titles = [], []
-    for head, body, title in _sample(postings, used, config.sample):
-        title_rows = plain.rows_of(head)
-        parts.append(plain.parts(title_rows, title_rows + plain.rows_of(body)))
-        titles.append(title)
-        progress(1)
-    texts = np.stack([p[1] for p in parts]) if parts else np.zeros((0, plain.normed.shape[1]), np.float32)
-    common = _common(unit_rows(texts)) if config.remove_common else None
-    vectors = recipe(common).combine(np.stack([p[0] for p in parts]), texts) if parts else texts
-    known = vectors[np.any(vectors != 0, axis=1)]
-    keep_titles = [t for t, v in zip(titles, vectors, strict=True) if np.any(v != 0)]
-    turn = None
-    if previous is not None and config.carry_over:
-        same = (
-            list(previous.concepts.sizes) == config.sizes
-            and previous.concepts.prefix == config.token_prefix
-            and (previous.concepts.common is None) == (common is None)
-        )
-        turn = align(plain.normed, keys, counts, previous) if same else None
+    known, keep_titles, common = _sampled_vectors(postings, used, recipe, config, progress)
+    same = previous is not None and config.carry_over and list(previous.concepts.sizes) == config.sizes
+    same = same and previous is not None and previous.concepts.prefix == config.token_prefix
+    same = same and previous is not None and (previous.concepts.common is None) == (common is None)
+    turn = align(recipe(None).normed, keys, counts, previous) if same and previous is not None else None
     rng = np.random.default_rng(seed)
     blocks, labels, kept = [], [], np.ones(len(known), dtype=bool)
     for n, k in enumerate(config.sizes):

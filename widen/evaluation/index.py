@@ -29,7 +29,7 @@ __all__ = ["SearchIndex", "Hit", "Tagger", "TITLE_BOOST", "FIELDS", "CONCEPT_FIE
 TITLE_BOOST = 3.0
 FIELDS = ["title", "description"]
 #: Changes whenever the schema or the analysis changes; an index of another version is rebuilt.
-SCHEMA_VERSION = 3
+SCHEMA_VERSION = 4
 _MARKER = "widen-index.json"
 #: The index field the concept tokens go in (the expansion option `concept_field` names it in queries).
 CONCEPT_FIELD = "concepts"
@@ -40,6 +40,9 @@ class Tagger(Protocol):
     """What tags postings with concept tokens (`widen.expansion.lexicon.Lexicon.tag`)."""
 
     version: str
+
+    @property
+    def concept_lineage(self) -> str | None: ...
 
     def tag(self, postings: Sequence[tuple[str, str]]) -> list[list[str]]: ...
 
@@ -107,6 +110,8 @@ class SearchIndex:
         self.size = int(meta["postings"])
         #: The bundle whose concept tokens the index holds; None for an index without them.
         self.tagged_by: str | None = meta.get("tagged_by")
+        #: The concept lineage of those tokens: a bundle of the same lineage reads them (None without).
+        self.tagged_lineage: str | None = meta.get("tagged_lineage")
         self._ids: set[str] | None = None
 
     @classmethod
@@ -182,6 +187,7 @@ class SearchIndex:
             "days": days,
             "schema": SCHEMA_VERSION,
             "tagged_by": tagger.version if tagger is not None else None,
+            "tagged_lineage": tagger.concept_lineage if tagger is not None else None,
         }
         (partial / _MARKER).write_text(json.dumps(meta) + "\n")
         shutil.rmtree(self.path, ignore_errors=True)

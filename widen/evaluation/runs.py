@@ -103,7 +103,9 @@ def evaluate(
 
     widen's query names places in the index's own fields (`places = "field"`): the index has them."""
     options = options.with_request(places=places)
-    tagged = index.tagged_by is not None and index.tagged_by == lexicon.version and lexicon.concepts is not None
+    # An index tagged by this bundle, or by an earlier one of the same lineage (last night's index).
+    lineage = lexicon.concept_lineage
+    tagged = lineage is not None and (index.tagged_by == lexicon.version or index.tagged_lineage == lineage)
     chosen = [
         m
         for m in (methods or METHODS)

@@ -120,6 +120,11 @@ class Lexicon:
         #: Every word of every place and employer name.
         self.name_words: frozenset[str] = frozenset(w for k in self.protected for w in k.split(PHRASE_JOINER))
 
+    @property
+    def concept_lineage(self) -> str | None:
+        """The lineage of the bundle's concepts: tokens of one lineage keep their meaning (None without)."""
+        return self.concepts.lineage if self.concepts is not None else None
+
     def tag(self, postings: Sequence[tuple[str, str]]) -> list[list[str]]:
         """The concept tokens of each (title, description), one list a posting (empty without concepts)."""
         if self.concepts is None or self.posting_vectors is None:
