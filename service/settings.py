@@ -46,4 +46,8 @@ class Settings(BaseSettings):
     # Before a bundle serves, work out how every entry expands on its own (widen.expansion.expand.prepare),
     # so the first query of each phrase costs what a repeated one does; about 0.3 ms an entry.
     prepare: bool = True
+    # How many entries to prepare before serving, the ones the most postings use first; the rest are
+    # worked out on first use (the same answers). Above the vocabulary's size: every entry (a large
+    # bundle then takes longer to become ready, and keeps about 9 KiB an entry: docs/benchmarks.md).
+    prepare_entries: int = Field(default=20_000, ge=0)
     demo_index: Path | None = None

@@ -124,7 +124,7 @@ class ServiceState:
             cache = ExpansionCache(lexicon)
             if self.settings.prepare:  # before the swap: the bundle serving now keeps serving meanwhile
                 started = time.monotonic()
-                entries = prepare(lexicon, cache, options)
+                entries = prepare(lexicon, cache, options, self.settings.prepare_entries)
                 log.info("prepared %d entries of %s in %.1f s", entries, version, time.monotonic() - started)
             self.serving = Serving(lexicon, cache, options)
             log.info("serving bundle %s", version)

@@ -32,10 +32,10 @@ class LiveServer:
 
 @contextmanager
 def live_server(
-    store: Path | str, env: dict[str, str] | None = None, args: tuple[str, ...] = ()
+    store: Path | str, env: dict[str, str] | None = None, args: tuple[str, ...] = (), ready_within: float = 60
 ) -> Iterator[LiveServer]:
-    """Start `widen serve` on `store` (a folder or a store's URL), wait until /readyz answers 200, stop
-    it with SIGINT after."""
+    """Start `widen serve` on `store` (a folder or a store's URL), wait until /readyz answers 200 (at
+    most `ready_within` seconds), stop it with SIGINT after."""
     port = free_port()
     process = subprocess.Popen(
         [sys.executable, "-m", "widen.cli", "serve", "--store", str(store), "--port", str(port), *args],
@@ -47,7 +47,7 @@ def live_server(
     base = f"http://127.0.0.1:{port}"
     server = LiveServer(base, process, [])
     try:
-        deadline = time.monotonic() + 60
+        deadline = time.monotonic() + ready_within
         while time.monotonic() < deadline:
             if process.poll() is not None:
                 _, err = process.communicate()
@@ -58,7 +58,7 @@ def live_server(
             except httpx.TransportError:
                 time.sleep(0.1)
         else:
-            raise AssertionError("widen serve did not become ready in 60 s")
+            raise AssertionError(f"widen serve did not become ready in {ready_within:g} s")
         yield server
     finally:
         if process.poll() is None:
