@@ -6,7 +6,7 @@ DEMO := build/demo
 STORE := build/store
 POSTINGS ?= 20000
 
-.PHONY: demo test lint bench evaluate choices ablation drill clean
+.PHONY: demo test lint bench scale evaluate choices ablation drill clean
 
 # The venv is (re)built when pyproject.toml changes.
 $(BIN)/.installed: pyproject.toml
@@ -47,6 +47,11 @@ bench: $(BIN)/.installed $(DEMO)/postings.jsonl
 	@command -v wrk >/dev/null 2>&1 || { [ "$$(id -u)" = 0 ] && apt-get install -y -qq wrk >/dev/null 2>&1 || (apt-get update -qq && apt-get install -y -qq wrk); } || { echo "the server benchmark needs wrk (apt-get install wrk)"; exit 1; }
 	$(BIN)/python -m bench.run --demo $(DEMO) --out build/bench
 	$(BIN)/python -m bench.concepts --out build/concepts
+
+# A national board's size: 20,000, 200,000 and 1,000,000 real-title postings (docs/benchmarks.md); about an hour.
+scale: $(BIN)/.installed
+	@command -v wrk >/dev/null 2>&1 || { [ "$$(id -u)" = 0 ] && (apt-get update -qq && apt-get install -y -qq wrk); } || { echo "the scale bench needs wrk"; exit 1; }
+	$(BIN)/python -m bench.scale --out build/scale
 
 # Both demo boards at full size, every method, the index window curve and the truth scorecard (README, "Search impact").
 evaluate: $(BIN)/.installed
