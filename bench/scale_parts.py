@@ -180,7 +180,7 @@ def _wrk_loop(base: str, seconds: int, paths: Path, into: dict[str, Any]) -> Non
     )
 
 
-def swap_under_load(store: Path, log: Path, work: Path, seconds: int = 40) -> dict[str, Any]:
+def swap_under_load(store: Path, log: Path, work: Path, seconds: int = 120) -> dict[str, Any]:
     """wrk replays the day's query log (32 connections, round and round) while the next bundle is published:
     failed requests, p99, and how long the new bundle took to serve."""
     paths, _, _ = log_paths(log, work / "replay-paths.txt")

@@ -24,7 +24,7 @@ from service.middleware.body_limit import BodyLimit
 from service.middleware.expand_shortcut import PATH, ExpandShortcut
 from service.middleware.request_id import RequestId
 from service.review.routes import router as review_router
-from service.routes import concepts, decisions, demo, expansion, operations
+from service.routes import concepts, decisions, demo, expansion, operations, worklist
 from service.settings import Settings
 from service.state import ServiceState
 
@@ -51,7 +51,14 @@ def create_app(settings: Settings, state: ServiceState | None = None, watch: boo
     )
     app.state.widen = state
     install_error_handlers(app)
-    for router in (expansion.router, concepts.router, decisions.router, operations.router, review_router):
+    for router in (
+        expansion.router,
+        concepts.router,
+        decisions.router,
+        worklist.router,
+        operations.router,
+        review_router,
+    ):
         app.include_router(router)
     if state.demo_index is not None:
         app.include_router(demo.router)

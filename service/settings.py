@@ -51,3 +51,8 @@ class Settings(BaseSettings):
     # bundle then takes longer to become ready, and keeps about 9 KiB an entry: docs/benchmarks.md).
     prepare_entries: int = Field(default=20_000, ge=0)
     demo_index: Path | None = None
+    # The day's query log the worklist reads (`widen.worklist.querylog`; re-read when the file changes),
+    # the days it covers (default: from its dates), and the board's own coded titles, one a line.
+    query_log: Path | None = None
+    query_log_days: float | None = Field(default=None, gt=0)
+    coded_titles: Path | None = None

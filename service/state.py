@@ -19,6 +19,7 @@ from pathlib import Path
 from service.cache import ResultCache
 from service.settings import Settings
 from service.telemetry import Telemetry
+from service.worklist import WorklistKeeper
 from widen.decisions.decision import DecisionSet
 from widen.decisions.open_store import open_decision_store
 from widen.errors import BundleError
@@ -80,6 +81,8 @@ class ServiceState:
         self._decisions_stamp = -1
         self._others: dict[str, Serving] = {}
         self._built: dict[str, SearchIndex] = {}
+        #: The serving bundle's worklist (`service.worklist`), built on first use.
+        self.worklists = WorklistKeeper()
         self._lock = threading.Lock()
         self._decisions_lock = threading.Lock()
         self._stop = threading.Event()

@@ -115,7 +115,7 @@ class DecisionRequest(BaseModel):
 
     phrase: str = Field(min_length=1, max_length=256, description="the phrase the decision is for, as typed")
     neighbour: str | None = Field(default=None, max_length=256, description="for block and pin; null for exempt")
-    action: Literal["block", "pin", "exempt"]
+    action: Literal["block", "pin", "exempt", "looked"]
     weight: float | None = Field(default=None, gt=0.0, lt=1.0, description="for pin only: the clause weight")
     reviewer: str = Field(min_length=1, max_length=100)
     note: str | None = Field(default=None, max_length=1000)

@@ -268,3 +268,22 @@ def _ride_out_the_database_going_away(
     listed = httpx.get(f"{two}/v1/decisions").json()["decisions"]
     assert sorted(d["neighbour"] for d in listed) == sorted([victim, "truck driver"])
     until(lambda: ready(two) == "current", "readyz never said the decisions are current again", seconds=5, every=0.1)
+
+
+def test_looked_marks_and_batches_on_both_backends(backend: DecisionStore) -> None:
+    """A worklist's `looked` mark is kept like a decision and changes no expansion; a batch of blocks is
+    recorded at once, each in the audit trail, and one call withdraws the lot."""
+    mark = backend.add("charge nurse", "looked", "ana", "20261203T004644086311Z-4c6e7adb")
+    assert mark.neighbour == "20261203T004644086311Z-4c6e7adb"  # the bundle's version, as written
+    assert backend.snapshot().by_phrase == {}
+    with pytest.raises(DecisionError, match="bundle"):
+        backend.add("charge nurse", "looked", "ana")
+    note = "[batch 1a2b3c4d] block 'ward sister' wherever it is offered"
+    made = backend.add_many([(p, "block", "ward sister", None) for p in ("charge nurse", "ward manager")], "ana", note)
+    assert {d.phrase for d in made} == {"charge nurse", "ward manager"}
+    assert backend.snapshot().get("ward manager").blocked == frozenset({"ward sister"})
+    gone = backend.withdraw_batch("1a2b3c4d", "ben")
+    assert {d.id for d in gone} == {d.id for d in made} and backend.snapshot().by_phrase == {}
+    assert [d.id for d in backend.entries()] == [mark.id]
+    with pytest.raises(DecisionError):
+        backend.withdraw_batch("1a2b3c4d", "ben")

@@ -11,7 +11,7 @@ import pytest
 
 from tests.helpers import demo_config, open_store, train_quietly
 from widen.cli import main
-from widen.decisions.sqlite import SqliteDecisionStore
+from widen.decisions.sqlite import SCHEMA_VERSION, SqliteDecisionStore
 from widen.errors import DecisionError
 from widen.expansion.options import ExpansionOptions
 from widen.model.store import Store
@@ -178,7 +178,7 @@ def test_a_database_of_the_first_schema_is_migrated_and_keeps_everything(tmp_pat
     assert store.snapshot().get("hensby").exempt
     assert store.add("kp", "exempt", "ana").id == 3  # the new constraint takes the new name
     with sqlite3.connect(path) as conn:
-        assert conn.execute("PRAGMA user_version").fetchone()[0] == 2
+        assert conn.execute("PRAGMA user_version").fetchone()[0] == SCHEMA_VERSION == 3
 
 
 def test_an_export_of_the_first_format_imports_with_the_new_action_name(tmp_path: Path) -> None:
@@ -186,3 +186,26 @@ def test_an_export_of_the_first_format_imports_with_the_new_action_name(tmp_path
     store = SqliteDecisionStore(tmp_path / "d.sqlite")
     assert store.import_(old, "ana") == 1
     assert [d.action for d in store.entries()] == ["exempt"]
+
+
+def test_a_version_2_sqlite_database_migrates_keeping_its_decisions(tmp_path: Path) -> None:
+    import sqlite3
+
+    path = tmp_path / "decisions.sqlite"
+    old = sqlite3.connect(path)
+    old.executescript(
+        "CREATE TABLE decisions (id INTEGER PRIMARY KEY AUTOINCREMENT, phrase TEXT NOT NULL, neighbour TEXT,"
+        " action TEXT NOT NULL CHECK (action IN ('block', 'pin', 'exempt')), weight REAL, reviewer TEXT NOT NULL,"
+        " note TEXT, created_at TEXT NOT NULL, withdrawn_at TEXT, withdrawn_by TEXT);"
+        "CREATE TABLE audit (id INTEGER PRIMARY KEY AUTOINCREMENT, decision_id INTEGER NOT NULL, event TEXT NOT NULL,"
+        " reviewer TEXT NOT NULL, note TEXT, at TEXT NOT NULL);"
+        "INSERT INTO decisions (phrase, neighbour, action, reviewer, created_at)"
+        " VALUES ('lorry driver', 'class 1 driver', 'block', 'ana', '2026-11-01T00:00:00Z');"
+        "INSERT INTO audit (decision_id, event, reviewer, at) VALUES (1, 'made', 'ana', '2026-11-01T00:00:00Z');"
+        "PRAGMA user_version = 2;"
+    )
+    old.close()
+    store = SqliteDecisionStore(path)
+    assert store.snapshot().get("lorry driver").blocked == frozenset({"class 1 driver"})
+    store.add("lorry driver", "looked", "ben", "20261203T004644086311Z-4c6e7adb")
+    assert [d.action for d in store.entries()] == ["block", "looked"] and len(store.audit()) == 2

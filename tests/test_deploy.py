@@ -32,9 +32,12 @@ def test_nightly_trains_on_the_newest_dump(tmp_path: Path) -> None:
     write_jsonl(dumps / "tollbridge-2026-11-30.jsonl", rows)
     config = tmp_path / "c.toml"
     config.write_text("[embedding]\nmin_count = 1\nepochs = 1\n", encoding="utf-8")
-    done = _run(dumps, tmp_path / "store", WIDEN_CONFIG=str(config))
+    log = write_jsonl(tmp_path / "log.jsonl", [{"q": "kitchen porter 3"}, {"q": "kitchen porter hensby"}])
+    done = _run(dumps, tmp_path / "store", WIDEN_CONFIG=str(config), WIDEN_QUERY_LOG=str(log))
     assert done.returncode == 0, done.stderr
     assert "tollbridge-2026-11-30.jsonl" in done.stdout
+    # With the day's query log, the worklist's summary line follows the training's output.
+    assert "worklist of " in done.stdout and "(no bundle before it)" in done.stdout
 
 
 def test_nightly_with_no_dump_exits_2(tmp_path: Path) -> None:

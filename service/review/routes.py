@@ -25,6 +25,7 @@ from starlette.concurrency import run_in_threadpool
 from service.review.access import REVIEWER_COOKIE, SESSION_COOKIE
 from service.review.pages import CSS, READ_ONLY_FOR_NOW, access_of, listed_decisions, page, read_form, refused
 from service.review.views import compare_view, phrase_view
+from service.review.worklist import router as worklist_router
 from service.routes import State
 from service.state import ServiceState
 from widen.decisions.decision import Decision
@@ -35,6 +36,7 @@ from widen.expansion.query_text import baseline_text
 __all__ = ["router"]
 
 router = APIRouter(include_in_schema=False)
+router.include_router(worklist_router)
 
 
 def _phrase_page(
@@ -117,7 +119,7 @@ def decisions_page(
     rows = listed_decisions(state, include_withdrawn=True)
     if phrase:
         rows = [d for d in rows if phrase.lower() in d.phrase or (d.neighbour and phrase.lower() in d.neighbour)]
-    if action in ("block", "pin", "exempt"):
+    if action in ("block", "pin", "exempt", "looked"):
         rows = [d for d in rows if d.action == action]
     if reviewer:
         rows = [d for d in rows if reviewer.lower() in d.reviewer.lower()]

@@ -27,7 +27,7 @@ router = APIRouter(tags=["decisions"])
 def decisions_list(
     state: State,
     phrase: str | None = Query(default=None, max_length=256, description="only decisions for this phrase"),
-    action: Literal["block", "pin", "exempt"] | None = None,
+    action: Literal["block", "pin", "exempt", "looked"] | None = None,
     state_: Literal["active", "withdrawn", "all"] = Query(default="active", alias="state"),
 ) -> DecisionList:
     """Reviewer decisions, oldest first; `state=all` includes the withdrawn ones."""

@@ -6,7 +6,7 @@ import argparse
 import os
 from pathlib import Path
 
-from widen.cli import bundles, evaluating, expanding, reviewing, serving, tagging, training
+from widen.cli import bundles, evaluating, expanding, reviewing, serving, tagging, training, worklist
 
 __all__ = ["build_parser"]
 
@@ -216,6 +216,40 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--import", dest="import_file", type=Path, metavar="FILE", help="add the decisions of an export")
     p.add_argument("--reviewer", help="with --import: who imports (recorded)")
     p.set_defaults(handler=reviewing.decisions)
+
+    p = sub.add_parser(
+        "worklist",
+        help="after a retrain: the phrases seekers type whose expansions need a look, busiest first",
+        formatter_class=_FORMAT,
+        description='Reads the day\'s query log (JSON Lines: one search a line {"q", "at"}, or counts '
+        '{"q", "searches"}; plain or gzip) and lists each phrase flagged: changed against the bundle '
+        "before, unsure, coded wording, finding little, or a stale decision (docs/review.md).",
+        epilog="examples:\n"
+        "  widen worklist --store build/store --log build/demo/query_log.jsonl\n"
+        "  widen worklist --store build/store --log log.jsonl.gz --reason coded --json\n"
+        "  widen worklist --store build/store --log log.jsonl --summary >> train.log\n"
+        "  widen worklist --store build/store --log log.jsonl --mark-looked unsure --reviewer ana\n"
+        "  widen worklist --store build/store --log log.jsonl --block-everywhere 'ward sister' --reviewer ana\n"
+        "  widen worklist --store build/store --withdraw-batch 3f9a01c2 --reviewer ana",
+    )
+    p.add_argument("--store", type=Path, required=True)
+    _decisions_url(p)
+    p.add_argument("--log", type=Path, help="the day's query log")
+    p.add_argument("--days", type=float, help="days the log covers (default: from its dates, or 1)")
+    p.add_argument("--bundle", help="the bundle to review (default: the one serving)")
+    p.add_argument("--against", help="the bundle before (default: the one that served before it)")
+    p.add_argument("--postings", type=Path, help="open postings: count what a change adds to the first 100 results")
+    p.add_argument("--coded", type=Path, help="the board's own coded titles, one a line, on top of the lists")
+    p.add_argument("--reason", help="only items with this reason: " + ", ".join(worklist.REASONS))
+    p.add_argument("--limit", type=int, default=50, help="items shown (default 50)")
+    p.add_argument("--json", action="store_true")
+    p.add_argument("--summary", action="store_true", help="one line, for the nightly log")
+    p.add_argument("--mark-looked", metavar="REASON", help="mark every item of a reason (or 'all') looked at")
+    p.add_argument("--block-everywhere", metavar="NEIGHBOUR", help="block it for every phrase that offers it")
+    p.add_argument("--withdraw-batch", metavar="BATCH", help="withdraw every decision of a batch")
+    p.add_argument("--reviewer", help="who decides (recorded)")
+    p.add_argument("--note", help="why (recorded)")
+    p.set_defaults(handler=worklist.worklist)
     return parser
 
 

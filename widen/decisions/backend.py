@@ -59,6 +59,26 @@ class DecisionStore(ABC):
         checked = checked_decision(phrase, action, reviewer, neighbour, weight)
         return self._insert([(checked, action, weight, note)])[0]
 
+    def add_many(
+        self, decisions: list[tuple[str, str, str | None, float | None]], reviewer: str, note: str | None = None
+    ) -> list[Decision]:
+        """Record several (phrase, action, neighbour, weight) in one transaction, all or none, each with
+        its own audit event and the same reviewer and note."""
+        rows: list[Checked] = [
+            (checked_decision(phrase, action, reviewer, neighbour, weight), action, weight, note)
+            for phrase, action, neighbour, weight in decisions
+        ]
+        return self._insert(rows) if rows else []
+
+    def withdraw_batch(self, batch: str, reviewer: str, note: str | None = None) -> list[Decision]:
+        """Withdraw every decision in force recorded in one batch (its note starts `[batch ID]`); each
+        withdrawal is in the audit trail. DecisionError when the batch has none in force."""
+        tag = f"[batch {batch}]"
+        chosen = [d for d in self.entries() if d.note and d.note.startswith(tag)]
+        if not batch.strip() or not chosen:
+            raise DecisionError(f"no decision in force belongs to batch {batch!r}")
+        return [self.withdraw(d.id, reviewer, note) for d in chosen]
+
     @abstractmethod
     def _restore(self, decisions: list[Decision], audit: list[dict[str, Any]]) -> int:
         """Into an empty database: every decision as it was (new ids) and every audit event, pointed

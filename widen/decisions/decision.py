@@ -8,7 +8,8 @@ applying and every change stays in the audit trail. The expansion core sees only
 
 The actions are named for what the reviewer does: *block* one neighbour of a phrase, *pin* one
 neighbour (with a weight) to a phrase, *exempt* a phrase from expansion altogether, and
-*withdraw* a decision.
+*withdraw* a decision; and *looked*, a worklist item looked at in one bundle, which changes nothing
+but is kept, with its reviewer and time, as a decision is.
 """
 
 from __future__ import annotations
@@ -22,6 +23,7 @@ from widen.text.forms import phrase_of_text
 __all__ = [
     "Action",
     "ACTIONS",
+    "APPLIED",
     "Decision",
     "DecisionSet",
     "PhraseDecisions",
@@ -30,8 +32,11 @@ __all__ = [
     "MAX_ID",
 ]
 
-Action = Literal["block", "pin", "exempt"]
-ACTIONS: tuple[str, ...] = ("block", "pin", "exempt")
+Action = Literal["block", "pin", "exempt", "looked"]
+ACTIONS: tuple[str, ...] = ("block", "pin", "exempt", "looked")
+#: The actions that change what widen does; `looked` only records that a reviewer looked at a phrase's
+#: worklist item in a bundle (the neighbour field holds the bundle's version), and changes nothing.
+APPLIED: tuple[str, ...] = ("block", "pin", "exempt")
 #: Decision ids are 64-bit signed integers in every backend.
 MAX_ID = 2**63 - 1
 EXPORT_FORMAT = "widen-decisions"
@@ -106,13 +111,17 @@ def checked_decision(
 ) -> tuple[str, str | None, str]:
     """A decision's phrase, neighbour (as phrases) and reviewer, or DecisionError saying what is wrong."""
     phrase_key = phrase_of_text(phrase)
-    neighbour_key = phrase_of_text(neighbour) if neighbour else None
+    neighbour_key = phrase_of_text(neighbour) if neighbour and action != "looked" else None
+    if action == "looked":  # the bundle's version, as it is written
+        neighbour_key = neighbour.strip() if neighbour and neighbour.strip().isprintable() else None
     if action not in ACTIONS:
         raise DecisionError(f"action must be one of {', '.join(ACTIONS)}, not {action!r}")
     if not phrase_key:
         raise DecisionError("phrase has no words")
     if not reviewer.strip():
         raise DecisionError("reviewer is required")
+    if action == "looked" and not neighbour_key:
+        raise DecisionError("looked needs the bundle's version it was looked at in")
     if action in ("block", "pin") and not neighbour_key:
         raise DecisionError(f"{action} needs a neighbour")
     if action == "exempt" and neighbour_key:

@@ -65,6 +65,12 @@ MIGRATIONS: tuple[str, ...] = (
     CREATE UNIQUE INDEX widen_decisions_once ON widen_decisions
         (phrase, COALESCE(neighbour, ''), action, COALESCE(weight, -1)) WHERE withdrawn_at IS NULL;
     """,
+    # A worklist item looked at in a bundle (`looked`, the neighbour column holding the bundle's version).
+    """
+    ALTER TABLE widen_decisions DROP CONSTRAINT widen_decisions_action_check;
+    ALTER TABLE widen_decisions ADD CONSTRAINT widen_decisions_action_check
+        CHECK (action IN ('block', 'pin', 'exempt', 'looked'));
+    """,
 )
 
 

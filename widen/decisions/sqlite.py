@@ -20,14 +20,14 @@ from widen.errors import DecisionError, DecisionMissing, DecisionWithdrawn
 
 __all__ = ["SqliteDecisionStore", "SCHEMA_VERSION"]
 
-SCHEMA_VERSION = 2
+SCHEMA_VERSION = 3
 
 _DECISIONS = """
 CREATE TABLE IF NOT EXISTS decisions (
     id INTEGER PRIMARY KEY AUTOINCREMENT,
     phrase TEXT NOT NULL,
     neighbour TEXT,
-    action TEXT NOT NULL CHECK (action IN ('block', 'pin', 'exempt')),
+    action TEXT NOT NULL CHECK (action IN ('block', 'pin', 'exempt', 'looked')),
     weight REAL,
     reviewer TEXT NOT NULL,
     note TEXT,
@@ -61,9 +61,10 @@ def _migrate(conn: sqlite3.Connection) -> None:
         exists = conn.execute("SELECT 1 FROM sqlite_master WHERE type = 'table' AND name = 'decisions'").fetchone()
         if exists is None:
             conn.execute(_DECISIONS)
-        elif version < 2:
-            # Version 2 renamed the phrase-wide action 'never' to 'exempt'; SQLite cannot alter a CHECK
-            # constraint, so the table is copied (ids kept, so the audit trail still points right).
+        elif version < 3:
+            # Version 2 renamed the phrase-wide action 'never' to 'exempt', version 3 added 'looked' (a
+            # worklist item looked at); SQLite cannot alter a CHECK constraint, so the table is copied
+            # (ids kept, so the audit trail still points right).
             conn.execute("ALTER TABLE decisions RENAME TO decisions_v1")
             conn.execute(_DECISIONS)
             conn.execute(

@@ -1,0 +1,1 @@
+"""A reviewer's worklist: after a retrain, the phrases seekers type whose expansions need a look."""
