@@ -143,8 +143,16 @@ def test_the_page_and_the_api_mark_items_looked_at(two_bundle_store: Path, demo_
         assert page.status_code == 200 and "Worklist: what to look at" in page.text
         phrase = first["items"][0]["phrase"]
         # Without the token and its CSRF key nothing is marked.
-        assert c.post("/review/worklist/looked", data={"phrase": phrase, "reviewer": "x"}).status_code in (401, 403)
+        forms = {
+            "/review/worklist/looked": {"phrase": phrase},
+            "/review/worklist/block": {"neighbour": "ward sister"},
+            "/review/worklist/withdraw-batch": {"batch": "1a2b3c4d"},
+        }
+        for path, data in forms.items():
+            assert c.post(path, data={**data, "reviewer": "x"}).status_code == 401
         csrf = sign_in(c)
+        for path, data in forms.items():  # signed in, but a form from elsewhere carries no CSRF key
+            assert c.post(path, data={**data, "reviewer": "x", "csrf": "0" * 64}).status_code == 403
         done = c.post("/review/worklist/looked", data={"csrf": csrf, "phrase": phrase, "reviewer": REVIEWER})
         assert done.status_code == 200 and "Marked 1 item" in done.text
         after = c.get("/v1/worklist", params={"looked": "yes"}).json()
