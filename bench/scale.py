@@ -9,7 +9,7 @@ Jobs, `demo_postings/fellhaven.py`; generated once into OUT/N/data and kept):
 - **gensim alone** on the same tokenised text (phrase passes streamed from a file, skip-gram in
   corpus-file mode): wall time and peak RSS, and widen's time over it (the target: at most 1.2);
 - **serving**: `widen serve` from start to ready, RSS and PSS with 1 and 2 workers, with the busiest
-  `WIDEN_PREPARE_ENTRIES` entries prepared (default 20,000) and with every entry prepared, side by side;
+  `WIDEN_PREPARE_ENTRIES` entries prepared (the service's default) and with every entry prepared;
 - **a hot swap under load**: wrk replays the day's query log while the next bundle is published:
   failed requests, p99, seconds until the new bundle answers;
 - **expand** in-process, head and tail title queries: the first call and a repeat, medians;
@@ -33,12 +33,14 @@ from typing import Any
 from bench.common import machine
 from bench.scale_parts import bundle_size, expand_by_band, gensim_alone, serving, swap_under_load, tagging, train_once
 from demo_postings.generate import generate
+from service.settings import Settings
 from widen.evaluation.runs import read_queries
 
 __all__ = ["main", "measure"]
 
-#: Every entry prepared, for the side-by-side with the default.
+#: Every entry prepared, for the side-by-side with the service's default (`WIDEN_PREPARE_ENTRIES`).
 ALL = 10**9
+DEFAULT_PREPARED = Settings.model_fields["prepare_entries"].default
 
 
 def _data(out: Path, postings: int) -> Path:
@@ -63,9 +65,9 @@ def measure(out: Path, postings: int, skip: set[str]) -> dict[str, Any]:
         row["train_over_gensim"] = round(trained["wall_s"] / row["gensim_alone"]["wall_s"], 3)
     typed = [q.query for q in read_queries(data / "queries.jsonl")][:200]
     if "serving" not in skip:
-        row["serving"] = serving(store, 20_000, typed)
+        row["serving"] = serving(store, DEFAULT_PREPARED, typed)
         row["serving_all_prepared"] = serving(store, ALL, typed)
-    row["expand"] = expand_by_band(store, data / "queries.jsonl", 20_000)
+    row["expand"] = expand_by_band(store, data / "queries.jsonl", DEFAULT_PREPARED)
     row["tagging"] = tagging(store, data / "postings.jsonl", work)
     if "swap" not in skip:  # last: it publishes a copy of the bundle as the next night's
         row["swap"] = swap_under_load(store, data / "query_log.jsonl", work)

@@ -70,7 +70,8 @@ class WorklistKeeper:
             other = state.serving_of(against)
             before = Bundle(other.lexicon, other.cache)
         coded_file = state.settings.coded_titles
-        coded = CodedCheck(coded_file.read_text(encoding="utf-8").splitlines() if coded_file else ())
+        lines = coded_file.read_text(encoding="utf-8").splitlines() if coded_file else []
+        coded = CodedCheck(line for line in lines if not line.startswith("#"))
         log = read_query_log(state.settings.query_log, state.settings.query_log_days)
         index = state.preview_index()
         return build_worklist(now, before, active, log, serving.options, index=index, coded=coded)

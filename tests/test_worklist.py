@@ -170,3 +170,12 @@ def test_the_page_and_the_api_mark_items_looked_at(two_bundle_store: Path, demo_
         assert c.get("/v1/worklist", params={"reason": "nonsense"}).status_code == 400
     with review_client(store) as c:
         assert c.get("/v1/worklist").json()["error"]["code"] == "no_query_log"
+    own = tmp_path / "coded.txt"
+    own.write_text("# the board's own coded titles\nward manager\n", encoding="utf-8")
+    with review_client(store, query_log=demo_dir / "query_log.jsonl", coded_titles=own) as c:
+        notes = [
+            n
+            for i in c.get("/v1/worklist", params={"reason": "coded", "per_page": 500}).json()["items"]
+            for n in i["notes"]
+        ]
+        assert any("'ward manager' is on the board's own list" in n for n in notes)
