@@ -52,14 +52,20 @@ def _data(out: Path, postings: int) -> Path:
     return data
 
 
-def measure(out: Path, postings: int, skip: set[str]) -> dict[str, Any]:
-    """Every figure of one size (see the module)."""
+def measure(out: Path, postings: int, skip: set[str], earlier: dict[str, Any] | None = None) -> dict[str, Any]:
+    """Every figure of one size (see the module). With `train` in `skip`, the training figures (and
+    gensim's) of the `earlier` run are kept and the rest measured again on its store."""
     data, work = _data(out, postings), out / str(postings)
     store = work / "store"
-    trained = train_once(data / "postings.jsonl", store, {"gate.pairs": str(data / "pairs.tsv")})
-    row: dict[str, Any] = {"postings": postings, "train": trained, "bundle": bundle_size(store, trained["version"])}
-    row["concepts_kmeans_s"] = trained["concepts"].get("seconds")
-    print(f"  trained in {trained['wall_s']} s", file=sys.stderr, flush=True)
+    if "train" in skip and earlier is not None:
+        row: dict[str, Any] = dict(earlier)
+        skip = skip | {"gensim"}
+    else:
+        trained = train_once(data / "postings.jsonl", store, {"gate.pairs": str(data / "pairs.tsv")})
+        row = {"postings": postings, "train": trained, "bundle": bundle_size(store, trained["version"])}
+        row["concepts_kmeans_s"] = trained["concepts"].get("seconds")
+        print(f"  trained in {trained['wall_s']} s", file=sys.stderr, flush=True)
+    trained = row["train"]
     if "gensim" not in skip:
         row["gensim_alone"] = gensim_alone(data / "postings.jsonl", work)
         row["train_over_gensim"] = round(trained["wall_s"] / row["gensim_alone"]["wall_s"], 3)
@@ -102,7 +108,7 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("--out", type=Path, default=Path("build/scale"))
     parser.add_argument("--sizes", default="20000,200000,1000000")
-    parser.add_argument("--skip", default="", help="leave out: gensim, serving, swap")
+    parser.add_argument("--skip", default="", help="leave out: gensim, serving, swap; train (keep the last run's)")
     args = parser.parse_args()
     out = args.out.resolve()
     out.mkdir(parents=True, exist_ok=True)
@@ -111,7 +117,8 @@ def main() -> None:
     results.update(machine=machine(), date=time.strftime("%Y-%m-%d"))
     for size in (int(s) for s in args.sizes.split(",")):
         print(f"{size} postings ...", file=sys.stderr, flush=True)
-        results["sizes"][str(size)] = measure(out, size, set(filter(None, args.skip.split(","))))
+        skip = set(filter(None, args.skip.split(",")))
+        results["sizes"][str(size)] = measure(out, size, skip, results["sizes"].get(str(size)))
         saved.write_text(json.dumps(results, indent=2) + "\n", encoding="utf-8")
         plot(results, out / "scale.png")
     print(json.dumps(results, indent=2))
