@@ -30,7 +30,7 @@ demo: $(BIN)/.installed $(DEMO)/postings.jsonl
 	@echo "serving the demo store; Ctrl-C stops it"
 	@token=$$($(BIN)/python -c 'import secrets; print(secrets.token_urlsafe(12))'); \
 	  echo "review token for this demo run (the /review page asks for it once): $$token"; \
-	  WIDEN_REVIEW_TOKEN=$$token exec $(BIN)/widen serve --store $(STORE) --port $(PORT) --demo-index $(DEMO)/open_postings.jsonl
+	  WIDEN_REVIEW_TOKEN=$$token WIDEN_QUERY_LOG=$(DEMO)/query_log.jsonl exec $(BIN)/widen serve --store $(STORE) --port $(PORT) --demo-index $(DEMO)/open_postings.jsonl
 
 CODE := widen training service tests demo_postings bench
 
