@@ -114,15 +114,16 @@ def gensim_direct(docs: list[str], seed: int) -> KeyedVectors:
     return _skipgram((simple_preprocess(d) for d in docs), seed)
 
 
-def pipeline_vectors(docs: list[str], seed: int) -> KeyedVectors:
-    """widen's vectors: the raw text as a dump, through `widen train` with the same skip-gram parameters."""
+def pipeline_vectors(docs: list[str], seed: int, workers: int = 1) -> KeyedVectors:
+    """widen's vectors: the raw text as a dump, through `widen train` with the same skip-gram parameters
+    (`workers` skip-gram threads)."""
     with tempfile.TemporaryDirectory(prefix="widen-ablation-") as tmp:
         corpus = Path(tmp) / "text.jsonl"
         with corpus.open("w", encoding="utf-8") as fh:
             for i, doc in enumerate(docs):
                 fh.write(json.dumps({"id": f"doc-{i}", "title": "", "description": doc}) + "\n")
         overrides: dict[str, Any] = {f"embedding.{k}": v for k, v in PARAMS.items()}
-        overrides |= {"embedding.seed": seed, "embedding.workers": 1, "gate.min_score": 0.0}
+        overrides |= {"embedding.seed": seed, "embedding.workers": workers, "gate.min_score": 0.0}
         overrides["corpus.max_bad_fraction"] = 0.5  # paragraphs of markup only tokenise to nothing
         train(corpus, Path(tmp) / "store", load_config(None, overrides), out=io.StringIO())
         vectors: KeyedVectors = Store(Path(tmp) / "store").open_bundle().vectors

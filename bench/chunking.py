@@ -14,7 +14,6 @@ from __future__ import annotations
 
 import argparse
 import bz2
-import io
 import json
 import statistics
 import tempfile
@@ -27,11 +26,8 @@ from gensim.models import KeyedVectors, Word2Vec
 from gensim.test.utils import datapath
 from gensim.utils import simple_preprocess
 
-from bench.ablation import WIKI, wordsim
+from bench.ablation import WIKI, pipeline_vectors, wordsim
 from bench.common import machine
-from training.config import load_config
-from training.pipeline import train
-from widen.model.store import Store
 from widen.text.tokenize import blocks, in_windows
 
 __all__ = ["main"]
@@ -62,20 +58,6 @@ def _corpus_file(sentences: list[list[str]], seed: int, workers: int) -> KeyedVe
         return model.wv
 
 
-def _widen(docs: list[str], seed: int, workers: int) -> KeyedVectors:
-    with tempfile.TemporaryDirectory(prefix="widen-chunking-") as tmp:
-        corpus = Path(tmp) / "text.jsonl"
-        with corpus.open("w", encoding="utf-8") as fh:
-            for i, doc in enumerate(docs):
-                fh.write(json.dumps({"id": f"doc-{i}", "title": "", "description": doc}) + "\n")
-        overrides: dict[str, Any] = {f"embedding.{k}": v for k, v in PARAMS.items()}
-        overrides |= {"embedding.seed": seed, "embedding.workers": workers, "gate.min_score": 0.0}
-        overrides["corpus.max_bad_fraction"] = 0.5
-        train(corpus, Path(tmp) / "store", load_config(None, overrides), out=io.StringIO())
-        vectors: KeyedVectors = Store(Path(tmp) / "store").open_bundle().vectors
-        return vectors
-
-
 def rows(docs: list[str], seed: int) -> dict[str, tuple[float, float]]:
     whole = [simple_preprocess(d) for d in docs]
     paragraphs = [simple_preprocess(p) for d in docs for p in d.split("\n") if p.strip()]
@@ -89,8 +71,10 @@ def rows(docs: list[str], seed: int) -> dict[str, tuple[float, float]]:
         "widen's tokeniser, windows over a block (paragraph), 2 threads": _skipgram(by_block, seed, 2),
         "the same from a file (gensim's corpus-file mode, as widen trains), 2 threads": _corpus_file(by_block, seed, 2),
         "the same from a file, 1 thread": _corpus_file(by_block, seed, 1),
-        "widen train, 2 threads (phrases, title entries, single words kept, de-duplication)": _widen(docs, seed, 2),
-        "widen train, 1 thread": _widen(docs, seed, 1),
+        "widen train, 2 threads (phrases, title entries, single words kept, de-duplication)": pipeline_vectors(
+            docs, seed, 2
+        ),
+        "widen train, 1 thread": pipeline_vectors(docs, seed, 1),
     }
     return {name: wordsim(wv) for name, wv in found.items()}
 

@@ -34,7 +34,7 @@ from typing import Any
 import httpx
 
 from bench.common import ROOT, machine
-from bench.traffic import LUA, log_paths
+from bench.traffic import log_paths, replay_loop
 from tests.live_server import free_port
 from widen.clock import new_version
 from widen.model.store import Store
@@ -107,25 +107,6 @@ def _running(command: list[str], cwd: Path | None = None) -> Iterator[subprocess
         if process.poll() is None:
             process.terminate()
             process.wait(timeout=20)
-
-
-def _wrk(base: str, seconds: float, paths: Path) -> dict[str, Any]:
-    out = subprocess.run(
-        ["wrk", "-t2", "-c16", f"-d{max(1, round(seconds))}s", "-s", str(LUA), base, "--", str(paths), "2", "loop"],
-        capture_output=True,
-        text=True,
-        check=True,
-    ).stdout
-    line = json.loads(next(x for x in out.splitlines() if x.startswith("{")))
-    return {
-        "requests": line["requests"],
-        "failed": line["non_2xx"] + line["socket_errors"],
-        "non_2xx": line["non_2xx"],
-        "socket_errors": {k: line[k] for k in ("connect", "read", "write", "timeout")},
-        "p50_ms": round(line["p50_us"] / 1000, 2),
-        "p99_ms": round(line["p99_us"] / 1000, 2),
-        "max_ms": round(line["max_us"] / 1000, 2),
-    }
 
 
 def _publish(store: Path) -> str:
@@ -205,17 +186,17 @@ class _Drill:
         results: dict[str, Any] = {}
         checker = _Checker(self.base)
         checker.thread.start()
-        results["before"] = _wrk(self.base, seconds, paths)
+        results["before"] = replay_loop(self.base, seconds, paths)
         events: dict[str, Any] = {}
         disrupter = threading.Thread(target=self.disrupt, args=(seconds, events))
         disrupter.start()
-        during = _wrk(self.base, seconds * 1.5, paths)
+        during = replay_loop(self.base, seconds * 1.5, paths)
         disrupter.join()
         results["during"] = {**during, **events}
         new = str(events["new_bundle"])
         for name, port in self.ports.items():
             _until_serving(port, new, name)
-        results["after"] = _wrk(self.base, seconds, paths)
+        results["after"] = replay_loop(self.base, seconds, paths)
         checker.stop.set()
         checker.thread.join(timeout=30)
         results["answers_by_bundle"] = checker.seen

@@ -19,7 +19,7 @@ import psutil
 from bench.common import ROOT
 from bench.drill import _publish
 from bench.server import _pss_kib
-from bench.traffic import LUA, log_paths
+from bench.traffic import log_paths, replay_loop
 from tests.helpers import open_store
 from tests.live_server import live_server
 from training.config import load_config
@@ -163,30 +163,13 @@ def serving(store: Path, prepare_entries: int, queries: list[str]) -> dict[str, 
     return got
 
 
-def _wrk_loop(base: str, seconds: int, paths: Path, into: dict[str, Any]) -> None:
-    out = subprocess.run(
-        ["wrk", "-t2", "-c32", f"-d{seconds}s", "-s", str(LUA), base, "--", str(paths), "2", "loop"],
-        capture_output=True,
-        text=True,
-        check=True,
-    ).stdout
-    line = json.loads(next(x for x in out.splitlines() if x.startswith("{")))
-    into.update(
-        requests=line["requests"],
-        failed=line["non_2xx"] + line["socket_errors"],
-        p50_ms=round(line["p50_us"] / 1000, 2),
-        p99_ms=round(line["p99_us"] / 1000, 2),
-        max_ms=round(line["max_us"] / 1000, 2),
-    )
-
-
 def swap_under_load(store: Path, log: Path, work: Path, seconds: int = 120) -> dict[str, Any]:
     """wrk replays the day's query log (32 connections, round and round) while the next bundle is published:
     failed requests, p99, and how long the new bundle took to serve."""
     paths, _, _ = log_paths(log, work / "replay-paths.txt")
     result: dict[str, Any] = {"seconds": seconds}
     with live_server(store, ready_within=600) as server:
-        load = threading.Thread(target=_wrk_loop, args=(server.base, seconds, paths, result))
+        load = threading.Thread(target=lambda: result.update(replay_loop(server.base, seconds, paths, 32)))
         load.start()
         time.sleep(seconds * 0.2)  # steady load first (a pause in the bench, never in a test)
         published, started = _publish(store), time.monotonic()

@@ -29,7 +29,7 @@ from prometheus_client.parser import text_string_to_metric_families
 
 from tests.live_server import live_server
 
-__all__ = ["bench_traffic", "log_paths"]
+__all__ = ["bench_traffic", "log_paths", "replay_loop"]
 
 LUA = Path(__file__).resolve().parent / "replay.lua"
 LATENCY = LUA.with_name("latency.lua")
@@ -153,3 +153,24 @@ def bench_traffic(store: Path, demo: Path, work: Path, rounds: int = 3, seconds:
         }
     results["targets"] = {"cache off ratio": ">= 0.7 (goal 0.9)", "cache default ratio": ">= 1.0", "p99_ms": "<= 25"}
     return results
+
+
+def replay_loop(base: str, seconds: float, paths: Path, connections: int = 16) -> dict[str, Any]:
+    """wrk replaying `paths` round and round for `seconds` (bench/replay.lua): requests, failures, latencies."""
+    command = ["wrk", "-t2", f"-c{connections}", f"-d{max(1, round(seconds))}s", "-s", str(LUA), base]
+    out = subprocess.run(
+        [*command, "--", str(paths), "2", "loop"],
+        capture_output=True,
+        text=True,
+        check=True,
+    ).stdout
+    line = json.loads(next(x for x in out.splitlines() if x.startswith("{")))
+    return {
+        "requests": line["requests"],
+        "failed": line["non_2xx"] + line["socket_errors"],
+        "non_2xx": line["non_2xx"],
+        "socket_errors": {k: line[k] for k in ("connect", "read", "write", "timeout")},
+        "p50_ms": round(line["p50_us"] / 1000, 2),
+        "p99_ms": round(line["p99_us"] / 1000, 2),
+        "max_ms": round(line["max_us"] / 1000, 2),
+    }

@@ -9,6 +9,7 @@ token for every change, every string escaped.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from urllib.parse import urlencode
 
 from fastapi import APIRouter, Request
@@ -79,46 +80,54 @@ async def _again(request: Request, state: ServiceState, form: dict[str, str], pr
     return await run_in_threadpool(_view, request, state, form, 400, problem=problem)
 
 
-@router.post("/review/worklist/looked")
-async def looked(request: Request, state: State) -> Response:
-    """Mark one item (`phrase`) or every item of a reason group (`group`: a reason, or `all`) looked at."""
-    form = await read_form(request)
-    if (denied := refused(request, state, form)) is not None:
-        return denied
-
-    def mark() -> int:
-        listed = state.worklists.current(state)
-        group = form.get("group", "")
-        items = (
-            [i for i in listed.items if i.phrase == form.get("phrase")]
-            if not group
-            else listed.chosen("" if group == "all" else group)
-        )
-        if group and group != "all" and group not in REASONS:
-            raise DecisionError(f"no reason called {group!r}")
-        if not items:
-            raise DecisionError("no such item on the list")
-        made = mark_looked(state.decision_store, items, listed.version, form.get("reviewer", "")[:100], None)
-        state.check_decisions()
-        return len(made)
-
-    try:
-        count = await run_in_threadpool(mark)
-    except (DecisionError, WorklistUnavailable) as exc:
-        return await _again(request, state, form, f"Not marked: {exc}.")
-    except DecisionsUnavailable:
-        return await _again(request, state, form, READ_ONLY_FOR_NOW)
-    return _back(form, f"Marked {count} item(s) looked at.")
-
-
-@router.post("/review/worklist/block")
-async def block(request: Request, state: State) -> Response:
-    """Block one neighbour for every phrase that offers it, as one batch."""
+async def _write(request: Request, state: ServiceState, verb: str, work: Callable[[dict[str, str]], str]) -> Response:
+    """A worklist form: the token and CSRF checked, `work(form)` run off the event loop (it returns what
+    to say), the decisions taken at once in this worker, and back to the list; or the list again with
+    why nothing was recorded ("Not `verb`: ...")."""
     form = await read_form(request)
     if (denied := refused(request, state, form)) is not None:
         return denied
 
     def run() -> str:
+        said = work(form)
+        state.check_decisions()
+        return said
+
+    try:
+        said = await run_in_threadpool(run)
+    except (DecisionError, WorklistUnavailable) as exc:
+        return await _again(request, state, form, f"Not {verb}: {exc}.")
+    except DecisionsUnavailable:
+        return await _again(request, state, form, READ_ONLY_FOR_NOW)
+    return _back(form, said)
+
+
+@router.post("/review/worklist/looked")
+async def looked(request: Request, state: State) -> Response:
+    """Mark one item (`phrase`) or every item of a reason group (`group`: a reason, or `all`) looked at."""
+
+    def mark(form: dict[str, str]) -> str:
+        listed = state.worklists.current(state)
+        group = form.get("group", "")
+        if group and group != "all" and group not in REASONS:
+            raise DecisionError(f"no reason called {group!r}")
+        if group:
+            items = listed.chosen("" if group == "all" else group)
+        else:
+            items = [i for i in listed.items if i.phrase == form.get("phrase")]
+        if not items:
+            raise DecisionError("no such item on the list")
+        made = mark_looked(state.decision_store, items, listed.version, form.get("reviewer", "")[:100], None)
+        return f"Marked {len(made)} item(s) looked at."
+
+    return await _write(request, state, "marked", mark)
+
+
+@router.post("/review/worklist/block")
+async def block(request: Request, state: State) -> Response:
+    """Block one neighbour for every phrase that offers it, as one batch."""
+
+    def run(form: dict[str, str]) -> str:
         listed = state.worklists.current(state)
         serving = state.serving
         if serving is None:
@@ -126,31 +135,18 @@ async def block(request: Request, state: State) -> Response:
         reviewer, note = form.get("reviewer", "")[:100], form.get("note", "").strip() or None
         bundle = Bundle(serving.lexicon, serving.cache)
         batch, made = block_everywhere(state.decision_store, bundle, listed, form.get("neighbour", ""), reviewer, note)
-        state.check_decisions()
         return f"Batch {batch}: blocked '{made[0].neighbour}' for {len(made)} phrase(s)."
 
-    try:
-        said = await run_in_threadpool(run)
-    except (DecisionError, WorklistUnavailable) as exc:
-        return await _again(request, state, form, f"Not blocked: {exc}.")
-    except DecisionsUnavailable:
-        return await _again(request, state, form, READ_ONLY_FOR_NOW)
-    return _back(form, said)
+    return await _write(request, state, "blocked", run)
 
 
 @router.post("/review/worklist/withdraw-batch")
 async def withdraw_batch(request: Request, state: State) -> Response:
     """Withdraw every decision of one batch."""
-    form = await read_form(request)
-    if (denied := refused(request, state, form)) is not None:
-        return denied
-    try:
-        gone = await run_in_threadpool(
-            state.decision_store.withdraw_batch, form.get("batch", "").strip(), form.get("reviewer", "")[:100], None
-        )
-        state.check_decisions()
-    except DecisionError as exc:
-        return await _again(request, state, form, f"Not withdrawn: {exc}.")
-    except DecisionsUnavailable:
-        return await _again(request, state, form, READ_ONLY_FOR_NOW)
-    return _back(form, f"Withdrew the {len(gone)} decision(s) of batch {form.get('batch', '').strip()}.")
+
+    def run(form: dict[str, str]) -> str:
+        batch = form.get("batch", "").strip()
+        gone = state.decision_store.withdraw_batch(batch, form.get("reviewer", "")[:100], None)
+        return f"Withdrew the {len(gone)} decision(s) of batch {batch}."
+
+    return await _write(request, state, "withdrawn", run)
