@@ -2,9 +2,14 @@
 
 from __future__ import annotations
 
+import html
+import unicodedata
+
 import pytest
 
-from widen.text.tokenize import normalise, sentences, tokens
+from bench.ablation import documents
+from widen.text import tokenize
+from widen.text.tokenize import blocks, normalise, sentences, tokens
 
 
 # Common practice, no source: these spellings are how the trade writes them, and splitting
@@ -64,3 +69,49 @@ def test_lone_punctuation_is_dropped() -> None:
 def test_normalise_is_idempotent_on_plain_text() -> None:
     once = normalise("Lorry Driver – Marrow Quay")
     assert normalise(once) == once
+
+
+def _by_the_pattern_alone(text: str) -> list[list[list[str]]]:
+    """`blocks` without its fast paths or its skipped steps: every normalising step run, every chunk
+    through the full token pattern (the reference the fast paths must agree with)."""
+    text = tokenize._SCRIPT.sub(" ", text)
+    text = tokenize._BLOCK_TAG.sub("\n", text)
+    text = tokenize._ANY_TAG.sub(" ", text)
+    for _ in range(2):
+        decoded = html.unescape(tokenize._SHOUTED_ENTITY.sub(lambda m: m.group(0).lower(), text))
+        if decoded == text:
+            break
+        text = decoded
+    text = unicodedata.normalize("NFKC", text).translate(tokenize._QUOTES).casefold()
+    out = []
+    for line in text.split("\n"):
+        block, current = [], []
+        for chunk in line.split():
+            for match in tokenize._TOKEN.finditer(chunk):
+                if match.lastgroup == "end":
+                    if current:
+                        block.append(current)
+                    current = []
+                else:
+                    current.extend(tokenize._compound(match.group()))
+        if current:
+            block.append(current)
+        if block:
+            out.append(block)
+    return out
+
+
+def test_fast_paths_agree_with_the_full_pattern_on_real_text() -> None:
+    # Real text: the Lee background corpus and the Wikipedia excerpt gensim ships in its test data
+    # (bench/ablation.py reads them), plus markup, entities, curly quotes and full-width forms.
+    texts = documents("lee") + documents("wiki")[:3000]
+    texts += [
+        "Caf\u00e9 &amp;amp; Bar <b>Chef</b>. Next, please",
+        "&POUND;12 \uff1cp\uff1e x. 12. e.g. ok.",
+        "don`t \u2019s \u2018quoted\u2019 Stra\u00dfe",
+        "<script>x</script>y <li>care, assistant.</li>",
+        "\uff21\uff22\uff23 &lt;li&gt; word, word. , . a. b.",
+    ]
+    differ = [t for t in texts if blocks(t) != _by_the_pattern_alone(t)]
+    assert len(texts) > 3000
+    assert differ == []

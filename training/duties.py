@@ -22,6 +22,7 @@ cosine of a frequent title's two halves (`split_half`) is the same-job scale at 
 
 from __future__ import annotations
 
+import functools
 import math
 import random
 from collections import Counter
@@ -105,14 +106,16 @@ def _gather(postings: Path, row_of: Mapping[str, int], vocabulary: Mapping[str, 
     kept: list[list[Counter[int]]] = [[] for _ in range(size)]
     seen = [0] * size
     rng = random.Random(seed)
+    words_of = functools.cache(lambda entry: entry.split(PHRASE_JOINER))
     for number, (head, body, names) in enumerate(_lines(postings)):
         mine = [row_of[t] for t in set(_words(names)) if t in row_of]
         if not mine:
             continue
         own = {w for t in _words(head) + _words(names) for w in t.split(PHRASE_JOINER)}
-        said = Counter(
-            vocabulary[e] for e in _words(body) if e in vocabulary and not own.intersection(e.split(PHRASE_JOINER))
-        )
+        said: Counter[int] = Counter()
+        for e, n in Counter(_words(body)).items():  # counted once each, in the order first said
+            if e in vocabulary and own.isdisjoint(words_of(e)):
+                said[vocabulary[e]] = n
         for r in mine:
             whole[r].update(said)
             halves[number % 2][r].update(said)

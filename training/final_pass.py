@@ -9,6 +9,7 @@ word would otherwise go without a vector.
 
 from __future__ import annotations
 
+import functools
 import os
 from collections import Counter
 from pathlib import Path
@@ -37,6 +38,7 @@ def final_pass(
     title: list[str] = []
     said: list[str] = []
     named: list[str] = [""]
+    window = functools.cache(in_windows)  # tens of thousands of entries, many millions of uses
 
     def posting_done() -> None:
         if title or said:
@@ -59,7 +61,7 @@ def final_pass(
                 posting_done()
                 named[0] = titled.readline().rstrip("\n")
                 continue
-            kept = [e for e in entries if in_windows(e)]
+            kept = [e for e in entries if window(e)]
             if line[0] in "Tt":
                 in_titles.update(entries)
                 title.extend(kept)
@@ -89,10 +91,15 @@ def keep_words(phrased: Path, counts: Counter[str], min_count: int) -> int:
     if not need:
         return 0
     spare = {e: n - min_count for e, n in counts.items() if PHRASE_JOINER in e and n > min_count}
+    # Only a line holding a phrase with a needed word can change: every other line is copied as it is.
+    wanted = {e for e in spare if any(w in need for w in e.split(PHRASE_JOINER))}
     split = 0
     rewritten = phrased.with_suffix(".words.txt")
     with phrased.open(encoding="utf-8") as src, rewritten.open("w", encoding="utf-8") as dst:
         for line in src:
+            if not wanted or wanted.isdisjoint(line.split()):
+                dst.write(line)
+                continue
             out: list[str] = []
             for entry in line.split():
                 words = entry.split(PHRASE_JOINER) if PHRASE_JOINER in entry else ()

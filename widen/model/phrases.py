@@ -55,6 +55,9 @@ class Phraser:
         self.titles = frozenset(titles)
         self._title_words = {tuple(t.split(PHRASE_JOINER)) for t in self.titles}
         self._longest = max((len(w) for w in self._title_words), default=0)
+        #: Every proper beginning of a title, joined: an entry that is none of them starts no title,
+        #: and a run of entries that is none of them grows into none.
+        self._starts = {PHRASE_JOINER.join(w[:n]) for w in self._title_words for n in range(1, len(w))}
 
     def __call__(self, sentence: list[str]) -> list[str]:
         for frozen in self.passes:
@@ -64,8 +67,13 @@ class Phraser:
     def _join_titles(self, entries: list[str]) -> list[str]:
         """Greedy longest match of the titles over whole entries ("early_years" + "practitioner")."""
         out: list[str] = []
+        starts = self._starts
         i = 0
         while i < len(entries):
+            if entries[i] not in starts:
+                out.append(entries[i])
+                i += 1
+                continue
             best, words = i, entries[i].split(PHRASE_JOINER)
             for j in range(i + 1, len(entries)):
                 words = words + entries[j].split(PHRASE_JOINER)
@@ -73,6 +81,8 @@ class Phraser:
                     break
                 if tuple(words) in self._title_words:
                     best = j
+                if PHRASE_JOINER.join(words) not in starts:
+                    break
             out.append(PHRASE_JOINER.join(entries[i : best + 1]) if best > i else entries[i])
             i = best + 1
         return out
