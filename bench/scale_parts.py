@@ -47,7 +47,8 @@ print(json.dumps({"version": done.version, "stages": done.seconds, "main_kib": o
 """
 
 # gensim alone, as a team would run it on a large dump: the same phrase passes streamed from the file
-# (each pass written out), then Word2Vec in corpus-file mode, as widen's own skip-gram runs.
+# (each pass written out), then Word2Vec in corpus-file mode, as widen's own skip-gram runs. It prints
+# the phrase passes' time, the skip-gram's, and the words the skip-gram saw.
 _GENSIM = r"""
 import json, sys, time
 from gensim.models import Word2Vec
@@ -66,11 +67,14 @@ for n in range(p["max_words"] - 1):
         for s in LineSentence(source):
             out.write(" ".join(frozen[s]) + "\n")
     source = target
+phrased = time.perf_counter()
 e = cfg["embedding"]
-Word2Vec(corpus_file=source, sg=1, hs=0, negative=e["negative"], vector_size=e["vector_size"],
-         window=e["window"], min_count=e["min_count"], sample=e["sample"], alpha=e["alpha"], epochs=e["epochs"],
-         seed=e["seed"], workers=e["workers"])
-print(time.perf_counter() - started)
+model = Word2Vec(corpus_file=source, sg=1, hs=0, negative=e["negative"], vector_size=e["vector_size"],
+                 window=e["window"], min_count=e["min_count"], sample=e["sample"], alpha=e["alpha"],
+                 epochs=e["epochs"], seed=e["seed"], workers=e["workers"])
+done = time.perf_counter()
+print(json.dumps({"inner_s": done - started, "phrases_s": phrased - started, "skipgram_s": done - phrased,
+                  "skipgram_words": model.corpus_total_words}))
 """
 
 
@@ -117,8 +121,9 @@ def gensim_alone(dump: Path, work: Path) -> dict[str, Any]:
         text=True,
     )
     peak = _peak_rss(process)
-    inner = float((process.communicate()[0] or "0").strip().splitlines()[-1])
-    return {"wall_s": round(time.perf_counter() - started, 1), "inner_s": round(inner, 1), "peak_mib": peak}
+    inner = json.loads((process.communicate()[0] or "{}").strip().splitlines()[-1])
+    rounded = {k: round(v, 1) if isinstance(v, float) else v for k, v in inner.items()}
+    return {"wall_s": round(time.perf_counter() - started, 1), **rounded, "peak_mib": peak}
 
 
 def _peak_rss(process: subprocess.Popen[str]) -> float:

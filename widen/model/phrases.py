@@ -66,8 +66,10 @@ class Phraser:
 
     def _join_titles(self, entries: list[str]) -> list[str]:
         """Greedy longest match of the titles over whole entries ("early_years" + "practitioner")."""
-        out: list[str] = []
         starts = self._starts
+        if starts.isdisjoint(entries):  # most sentences: no entry starts a title
+            return entries
+        out: list[str] = []
         i = 0
         while i < len(entries):
             if entries[i] not in starts:
