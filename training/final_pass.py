@@ -10,9 +10,13 @@ word would otherwise go without a vector.
 from __future__ import annotations
 
 import functools
+import itertools
+import multiprocessing
 import os
+import shutil
 from collections import Counter
 from pathlib import Path
+from typing import NamedTuple
 
 from training.first_pass import Scratch
 from widen.model.phrases import Phraser
@@ -23,22 +27,94 @@ __all__ = ["final_pass", "keep_words"]
 
 
 def final_pass(
-    phraser: Phraser, scratch: Scratch, phrased: Path, postings: Path, names: Path | None = None
+    phraser: Phraser, scratch: Scratch, phrased: Path, postings: Path, names: Path | None = None, workers: int = 1
 ) -> tuple[Counter[str], Counter[str]]:
     """Apply the last phrase pass and the title pass; write one line a block for skip-gram, whose
     windows then span the sentences of a paragraph or list item (numbers and lone letters left out),
     and one line a posting of its title entries, description entries and the titles it names (read
     from `names`, one line a posting in the scratch corpus's order), for the duties. Returns the
-    count of every entry written for skip-gram, and of the entries used in titles."""
-    counts: Counter[str] = Counter()
-    in_titles: Counter[str] = Counter()
+    count of every entry written for skip-gram, and of the entries used in titles.
+
+    With `workers` above 1 the scratch corpus is cut at posting starts into that many parts, each
+    worked in a process of its own (this one and forked ones) and the parts' files joined in order:
+    the files and counts are the same as one process makes (a Counter merged part after part keeps
+    the order in which entries were first met)."""
     passes = phraser.passes[-1:] if scratch.generation < len(phraser.passes) else []
     last = Phraser(passes, phraser.titles)
+    parts = _parts(scratch.path, max(workers, 1))
+    if len(parts) == 1:
+        return _final_part(last, scratch.path, parts[0], names, phrased, postings)
+    outs = [(phrased.with_name(f"{phrased.name}.{n}"), postings.with_name(f"{postings.name}.{n}")) for n in range(len(parts))]
+    with multiprocessing.get_context("fork").Pool(len(parts) - 1) as pool:
+        pending = [
+            pool.apply_async(_final_part, (last, scratch.path, part, names, *out))
+            for part, out in zip(parts[1:], outs[1:], strict=True)
+        ]
+        done = [_final_part(last, scratch.path, parts[0], names, *outs[0])] + [p.get() for p in pending]
+    for target, pieces in ((phrased, [o[0] for o in outs]), (postings, [o[1] for o in outs])):
+        with target.open("wb") as dst:
+            for piece in pieces:
+                with piece.open("rb") as src:
+                    shutil.copyfileobj(src, dst, 1 << 20)
+                piece.unlink()
+    counts, in_titles = done[0]
+    for more_counts, more_titles in done[1:]:
+        counts.update(more_counts)
+        in_titles.update(more_titles)
+    return counts, in_titles
+
+
+class _Part(NamedTuple):
+    """A run of whole postings of the scratch corpus: its byte range, and how many postings come before."""
+
+    start: int
+    stop: int
+    before: int
+
+
+_POSTING = b"P\t\n"  # the line that starts a posting in the scratch corpus (`training.first_pass`)
+
+
+def _parts(scratch: Path, count: int) -> list[_Part]:
+    """Cut the scratch corpus into `count` runs of whole postings of about equal size (fewer when small)."""
+    size = scratch.stat().st_size
+    starts = [0]
+    with scratch.open("rb") as fh:
+        for n in range(1, count):
+            fh.seek(max(size * n // count, starts[-1]))
+            fh.readline()  # to the next line start
+            while (line := fh.readline()) and line != _POSTING:
+                pass
+            if not line:
+                break
+            starts.append(fh.tell() - len(line))
+        fh.seek(0)
+        befores, seen, tail = [0], 1 if fh.read(len(_POSTING)) == _POSTING else 0, b""
+        fh.seek(0)
+        for start, stop in itertools.pairwise(starts):  # count the posting lines of each run
+            left = stop - start
+            while left:
+                chunk = fh.read(min(left, 1 << 24))
+                left -= len(chunk)
+                seen += (tail + chunk).count(b"\n" + _POSTING)
+                tail = chunk[-3:]
+            befores.append(seen)
+    ends = [*starts[1:], size]
+    unique = [_Part(a, b, n) for a, b, n in zip(starts, ends, befores, strict=True) if b > a]
+    return unique or [_Part(0, size, 0)]
+
+
+def _final_part(
+    last: Phraser, scratch: Path, part: _Part, names: Path | None, phrased: Path, postings: Path
+) -> tuple[Counter[str], Counter[str]]:
+    """One run of postings of the final pass (see `final_pass`), from its own byte range of the scratch."""
+    counts: Counter[str] = Counter()
+    in_titles: Counter[str] = Counter()
+    window = functools.cache(in_windows)  # tens of thousands of entries, many millions of uses
     block: list[str] = []
     title: list[str] = []
     said: list[str] = []
     named: list[str] = [""]
-    window = functools.cache(in_windows)  # tens of thousands of entries, many millions of uses
 
     def posting_done() -> None:
         if title or said:
@@ -47,12 +123,19 @@ def final_pass(
         said.clear()
 
     with (
-        scratch.path.open(encoding="utf-8") as src,
+        scratch.open("rb") as src,
         phrased.open("w", encoding="utf-8") as dst,
         postings.open("w", encoding="utf-8") as out,
         names.open(encoding="utf-8") if names is not None else open(os.devnull, encoding="utf-8") as titled,
     ):
-        for line in src:
+        for _ in range(part.before):
+            titled.readline()
+        src.seek(part.start)
+        left = part.stop - part.start
+        while left > 0:
+            raw = src.readline()
+            left -= len(raw)
+            line = raw.decode("utf-8")
             entries = last(line[2:].split())
             if line[0] in "TDP" and block:  # a new block starts: the one before is complete
                 dst.write(" ".join(block) + "\n")

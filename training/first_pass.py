@@ -35,11 +35,14 @@ class Scratch:
     """The corpus as phrased so far, in a scratch file of `M<TAB>tokens` lines (see the module).
 
     `through(phraser)` streams it with one more phrase pass applied and writes that as the
-    next scratch file, so the next pass reads it without applying earlier passes again.
+    next scratch file, so the next pass reads it without applying earlier passes again. With
+    `workers` above 1, forked processes apply the pass to runs of lines while the caller (gensim
+    Phrases) counts the run before; the lines come back in order, the same as one process makes.
     """
 
-    def __init__(self, folder: Path) -> None:
+    def __init__(self, folder: Path, workers: int = 1) -> None:
         self.folder = folder
+        self.workers = workers
         self.generation = 0
         self.path = folder / "sentences.0.txt"
 
@@ -47,13 +50,69 @@ class Scratch:
         source = self.path
         self.generation += 1
         target = self.folder / f"sentences.{self.generation}.txt"
-        with source.open(encoding="utf-8") as src, target.open("w", encoding="utf-8") as dst:
-            for line in src:
-                entries = phraser(line[2:].split())
-                dst.write(f"{line[:2]}{' '.join(entries)}\n")
-                yield entries
+        with target.open("w", encoding="utf-8") as dst:
+            if self.workers <= 1:
+                with source.open(encoding="utf-8") as src:
+                    for line in src:
+                        entries = phraser(line[2:].split())
+                        dst.write(f"{line[:2]}{' '.join(entries)}\n")
+                        yield entries
+            else:
+                for text in _phrased_runs(source, phraser, self.workers):
+                    dst.write(text)
+                    for line in _lines_of(text):
+                        yield line[2:].split()  # entries hold no space: the same list as the pass made
         source.unlink()
         self.path = target
+
+
+#: The bytes of scratch corpus one worker phrases at a time.
+_RUN_BYTES = 1 << 23
+_phraser: Phraser | None = None  # the pass a worker applies, set once when the pool starts
+
+
+def _set_phraser(phraser: Phraser) -> None:
+    global _phraser
+    _phraser = phraser
+
+
+def _phrase_run(source: Path, start: int, stop: int) -> str:
+    """Runs in a worker: the lines of `source` in [start, stop) with the pass applied, as they are written."""
+    assert _phraser is not None
+    with source.open("rb") as fh:
+        fh.seek(start)
+        text = fh.read(stop - start).decode("utf-8")
+    return "".join(f"{line[:2]}{' '.join(_phraser(line[2:].split()))}\n" for line in _lines_of(text))
+
+
+def _lines_of(text: str) -> list[str]:
+    """The lines of a run of whole lines, each without its line break."""
+    return text.split("\n")[:-1]
+
+
+def _line_runs(source: Path) -> Iterator[tuple[int, int]]:
+    """`source` cut at line starts into runs of about `_RUN_BYTES`."""
+    size = source.stat().st_size
+    with source.open("rb") as fh:
+        start = 0
+        while start < size:
+            fh.seek(min(start + _RUN_BYTES, size))
+            fh.readline()
+            stop = min(fh.tell(), size)
+            yield start, stop
+            start = stop
+
+
+def _phrased_runs(source: Path, phraser: Phraser, workers: int) -> Iterator[str]:
+    """The runs of `source` phrased by `workers` forked processes, in order, a bounded number ahead."""
+    with multiprocessing.get_context("fork").Pool(workers, initializer=_set_phraser, initargs=(phraser,)) as pool:
+        pending: deque[AsyncResult[str]] = deque()
+        for start, stop in _line_runs(source):
+            pending.append(pool.apply_async(_phrase_run, (source, start, stop)))
+            if len(pending) >= 2 * workers:
+                yield pending.popleft().get()
+        while pending:
+            yield pending.popleft().get()
 
 
 @dataclass(frozen=True)

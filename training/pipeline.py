@@ -140,12 +140,15 @@ def _run(
     out, writer = clock.out, BundleWriter(work)
     scratch_dir = work / "_scratch"
     scratch_dir.mkdir()
-    scratch, phrased_path, postings = Scratch(scratch_dir), scratch_dir / "phrased.txt", scratch_dir / "postings.txt"
+    scratch = Scratch(scratch_dir, config.corpus.workers)
+    phrased_path, postings = scratch_dir / "phrased.txt", scratch_dir / "postings.txt"
     corpus = PostingCorpus(corpus_path, config.corpus)
     with clock.stage("read, tokenise and phrases"):
         phrased = stages.read_and_phrase(corpus, scratch, config, out)
     with clock.stage("final pass"):
-        counts, in_titles = final_pass(phrased.phraser, scratch, phrased_path, postings, phrased.first.names_path)
+        counts, in_titles = final_pass(
+            phrased.phraser, scratch, phrased_path, postings, phrased.first.names_path, config.corpus.workers
+        )
         keep_words(phrased_path, counts, config.embedding.min_count)
     with clock.stage("skip-gram"):
         model = fit_skipgram(phrased_path, config, out)

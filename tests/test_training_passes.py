@@ -1,0 +1,108 @@
+"""The passes of training made faster must make what the plain versions make: the final pass in parts
+and the title pass's shortcut, against the one-process pass and the plain greedy longest match."""
+
+from __future__ import annotations
+
+import filecmp
+import io
+import random
+import shutil
+from pathlib import Path
+
+import pytest
+
+from tests.helpers import demo_config
+from training import first_pass, stages
+from training.corpus import PostingCorpus
+from training.final_pass import _parts, final_pass
+from training.first_pass import Scratch
+from widen.model.phrases import Phraser
+from widen.text.forms import PHRASE_JOINER
+
+
+def test_final_pass_in_parts_writes_and_counts_what_one_process_does(demo_dir: Path, tmp_path: Path) -> None:
+    config = demo_config(demo_dir)
+    (tmp_path / "scratch").mkdir()
+    scratch = Scratch(tmp_path / "scratch")
+    phrased = stages.read_and_phrase(PostingCorpus(demo_dir / "postings.jsonl", config.corpus), scratch, config, io.StringIO())
+    made = {}
+    for workers in (1, 2, 3):
+        counts = final_pass(
+            phrased.phraser, scratch, tmp_path / f"phrased{workers}", tmp_path / f"postings{workers}",
+            phrased.first.names_path, workers,
+        )
+        made[workers] = [list(c.items()) for c in counts]
+    assert made[1][0] and made[1][1]  # the demo dump has entries and titles
+    for workers in (2, 3):
+        assert filecmp.cmp(tmp_path / "phrased1", tmp_path / f"phrased{workers}", shallow=False)
+        assert filecmp.cmp(tmp_path / "postings1", tmp_path / f"postings{workers}", shallow=False)
+        assert made[workers] == made[1]  # the same counts, in the order entries were first met
+
+
+def test_parts_start_at_postings_and_know_the_postings_before(tmp_path: Path) -> None:
+    lines = []
+    for n in range(500):
+        lines += ["P\t\n", f"T\tjob {n}\n"] + [f"d\tword {k}\n" for k in range(n % 7)]
+    scratch = tmp_path / "sentences.txt"
+    scratch.write_text("".join(lines), encoding="utf-8")
+    data = scratch.read_bytes()
+    for count in (1, 2, 5, 64):
+        parts = _parts(scratch, count)
+        assert parts[0].start == 0 and parts[-1].stop == len(data)
+        assert all(a.stop == b.start for a, b in zip(parts, parts[1:]))  # no gap, no overlap
+        for part in parts:
+            assert data[part.start : part.start + 3] == b"P\t\n"
+            assert part.before == data[: part.start].count(b"P\t\n")  # posting lines before it
+
+
+def _plain_longest_match(titles: set[tuple[str, ...]], longest: int, entries: list[str]) -> list[str]:
+    """The title pass as first written: at each entry, try every longer run (the reference)."""
+    out, i = [], 0
+    while i < len(entries):
+        best, words = i, entries[i].split(PHRASE_JOINER)
+        for j in range(i + 1, len(entries)):
+            words = words + entries[j].split(PHRASE_JOINER)
+            if len(words) > longest:
+                break
+            if tuple(words) in titles:
+                best = j
+        out.append(PHRASE_JOINER.join(entries[i : best + 1]) if best > i else entries[i])
+        i = best + 1
+    return out
+
+
+def test_title_pass_shortcut_matches_the_plain_longest_match() -> None:
+    titles = ["care_assistant", "senior_care_assistant", "early_years_practitioner", "night_care_worker", "hgv_driver"]
+    phraser = Phraser([], titles)
+    words = ["care", "assistant", "senior", "early_years", "early", "years", "practitioner", "night", "worker",
+             "care_assistant", "hgv", "driver", "the", "of"]
+    rng = random.Random(3)
+    title_words = {tuple(t.split(PHRASE_JOINER)) for t in titles}
+    joined = 0
+    for _ in range(3000):
+        sentence = [rng.choice(words) for _ in range(rng.randrange(0, 9))]
+        got = phraser(list(sentence))
+        assert got == _plain_longest_match(title_words, 3, sentence), sentence
+        joined += sum(e in titles for e in got) > sum(e in titles for e in sentence)
+    assert joined > 100  # the sentences drawn did join titles
+
+
+def test_phrase_pass_in_workers_streams_and_writes_what_one_process_does(
+    demo_dir: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    config = demo_config(demo_dir)
+    (tmp_path / "first").mkdir()
+    scratch = Scratch(tmp_path / "first")
+    phrased = stages.read_and_phrase(PostingCorpus(demo_dir / "postings.jsonl", config.corpus), scratch, config, io.StringIO())
+    monkeypatch.setattr(first_pass, "_RUN_BYTES", 4096)  # many runs, so order across runs is tested
+    seen = {}
+    for workers in (1, 2):
+        folder = tmp_path / f"w{workers}"
+        folder.mkdir()
+        shutil.copy(scratch.path, folder / "sentences.0.txt")
+        again = Scratch(folder, workers)
+        seen[workers] = list(again.through(phrased.phraser))
+        assert again.path.is_file() and not (folder / "sentences.0.txt").exists()
+    assert sum(map(len, seen[1])) > 10_000  # the demo dump went through
+    assert seen[2] == seen[1]
+    assert filecmp.cmp(tmp_path / "w1" / "sentences.1.txt", tmp_path / "w2" / "sentences.1.txt", shallow=False)
