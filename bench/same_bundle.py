@@ -57,7 +57,7 @@ def train_at(source: Path, dump: Path, store: Path, overrides: dict[str, Any]) -
     )
     if done.returncode != 0:
         raise SystemExit(f"training at {source} failed: {done.stderr[-2000:]}")
-    version = json.loads(done.stdout.strip().splitlines()[-1])["version"]
+    version = str(json.loads(done.stdout.strip().splitlines()[-1])["version"])
     return store / "bundles" / version
 
 

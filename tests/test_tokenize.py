@@ -85,7 +85,8 @@ def _by_the_pattern_alone(text: str) -> list[list[list[str]]]:
     text = unicodedata.normalize("NFKC", text).translate(tokenize._QUOTES).casefold()
     out = []
     for line in text.split("\n"):
-        block, current = [], []
+        block: list[list[str]] = []
+        current: list[str] = []
         for chunk in line.split():
             for match in tokenize._TOKEN.finditer(chunk):
                 if match.lastgroup == "end":

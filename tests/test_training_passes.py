@@ -5,15 +5,19 @@ from __future__ import annotations
 
 import filecmp
 import io
+import itertools
 import random
 import shutil
 from pathlib import Path
 
+import numpy as np
 import pytest
+from scipy import sparse
 
 from tests.helpers import demo_config
 from training import first_pass, stages
 from training.corpus import PostingCorpus
+from training.duties import _most_alike
 from training.final_pass import _parts, final_pass
 from training.first_pass import Scratch
 from widen.model.phrases import Phraser
@@ -24,12 +28,18 @@ def test_final_pass_in_parts_writes_and_counts_what_one_process_does(demo_dir: P
     config = demo_config(demo_dir)
     (tmp_path / "scratch").mkdir()
     scratch = Scratch(tmp_path / "scratch")
-    phrased = stages.read_and_phrase(PostingCorpus(demo_dir / "postings.jsonl", config.corpus), scratch, config, io.StringIO())
+    phrased = stages.read_and_phrase(
+        PostingCorpus(demo_dir / "postings.jsonl", config.corpus), scratch, config, io.StringIO()
+    )
     made = {}
     for workers in (1, 2, 3):
         counts = final_pass(
-            phrased.phraser, scratch, tmp_path / f"phrased{workers}", tmp_path / f"postings{workers}",
-            phrased.first.names_path, workers,
+            phrased.phraser,
+            scratch,
+            tmp_path / f"phrased{workers}",
+            tmp_path / f"postings{workers}",
+            phrased.first.names_path,
+            workers,
         )
         made[workers] = [list(c.items()) for c in counts]
     assert made[1][0] and made[1][1]  # the demo dump has entries and titles
@@ -49,7 +59,7 @@ def test_parts_start_at_postings_and_know_the_postings_before(tmp_path: Path) ->
     for count in (1, 2, 5, 64):
         parts = _parts(scratch, count)
         assert parts[0].start == 0 and parts[-1].stop == len(data)
-        assert all(a.stop == b.start for a, b in zip(parts, parts[1:]))  # no gap, no overlap
+        assert all(a.stop == b.start for a, b in itertools.pairwise(parts))  # no gap, no overlap
         for part in parts:
             assert data[part.start : part.start + 3] == b"P\t\n"
             assert part.before == data[: part.start].count(b"P\t\n")  # posting lines before it
@@ -74,8 +84,22 @@ def _plain_longest_match(titles: set[tuple[str, ...]], longest: int, entries: li
 def test_title_pass_shortcut_matches_the_plain_longest_match() -> None:
     titles = ["care_assistant", "senior_care_assistant", "early_years_practitioner", "night_care_worker", "hgv_driver"]
     phraser = Phraser([], titles)
-    words = ["care", "assistant", "senior", "early_years", "early", "years", "practitioner", "night", "worker",
-             "care_assistant", "hgv", "driver", "the", "of"]
+    words = [
+        "care",
+        "assistant",
+        "senior",
+        "early_years",
+        "early",
+        "years",
+        "practitioner",
+        "night",
+        "worker",
+        "care_assistant",
+        "hgv",
+        "driver",
+        "the",
+        "of",
+    ]
     rng = random.Random(3)
     title_words = {tuple(t.split(PHRASE_JOINER)) for t in titles}
     joined = 0
@@ -93,7 +117,9 @@ def test_phrase_pass_in_workers_streams_and_writes_what_one_process_does(
     config = demo_config(demo_dir)
     (tmp_path / "first").mkdir()
     scratch = Scratch(tmp_path / "first")
-    phrased = stages.read_and_phrase(PostingCorpus(demo_dir / "postings.jsonl", config.corpus), scratch, config, io.StringIO())
+    phrased = stages.read_and_phrase(
+        PostingCorpus(demo_dir / "postings.jsonl", config.corpus), scratch, config, io.StringIO()
+    )
     monkeypatch.setattr(first_pass, "_RUN_BYTES", 4096)  # many runs, so order across runs is tested
     seen = {}
     for workers in (1, 2):
@@ -106,3 +132,18 @@ def test_phrase_pass_in_workers_streams_and_writes_what_one_process_does(
     assert sum(map(len, seen[1])) > 10_000  # the demo dump went through
     assert seen[2] == seen[1]
     assert filecmp.cmp(tmp_path / "w1" / "sentences.1.txt", tmp_path / "w2" / "sentences.1.txt", shallow=False)
+
+
+def test_title_table_rows_in_workers_are_the_rows_one_process_finds() -> None:
+    rng = np.random.default_rng(4)
+    dense = rng.random((300, 80)) * (rng.random((300, 80)) < 0.2)
+    dense /= np.maximum(np.linalg.norm(dense, axis=1, keepdims=True), 1e-12)
+    matrix = sparse.csr_matrix(dense)
+    one = _most_alike(matrix, 5, 64, 1)
+    two = _most_alike(matrix, 5, 64, 2)
+    assert np.array_equal(one[0], two[0]) and np.array_equal(one[1], two[1])
+    # The reference: every cosine with numpy's dense product, the title itself left out.
+    cosines = dense @ dense.T
+    np.fill_diagonal(cosines, -np.inf)
+    best = np.sort(cosines, axis=1)[:, ::-1][:, :5]
+    assert np.allclose(one[1], best, atol=1e-6)

@@ -24,6 +24,7 @@ from __future__ import annotations
 
 import functools
 import math
+import multiprocessing
 import random
 from collections import Counter
 from collections.abc import Mapping
@@ -194,13 +195,56 @@ def _calibration(
     return {"sizes": list(SIZES), "same_job": same, "chance": chance}
 
 
+_profiles_of: sparse.csr_matrix | None = None  # the matrix a forked worker reads its row blocks from
+
+
+def _block(start: int, stop: int, k: int) -> tuple[npt.NDArray[np.int32], npt.NDArray[np.float32]]:
+    """One block of rows of the title table: each row's `k` most alike other titles (runs in a worker, too)."""
+    matrix = _profiles_of
+    assert matrix is not None
+    sims = (matrix[start:stop] @ matrix.T).toarray().astype(np.float32)
+    sims[np.arange(stop - start), np.arange(start, stop)] = -np.inf
+    return top_k_rows(sims, k)
+
+
+def _most_alike(
+    matrix: sparse.csr_matrix, k: int, block_rows: int, workers: int
+) -> tuple[npt.NDArray[np.int32], npt.NDArray[np.float32]]:
+    """Each profile's `k` most alike others by cosine, a block of rows at a time; with `workers` above 1 the
+    blocks are shared among forked processes (the same numbers: each block is worked out as one process
+    would)."""
+    global _profiles_of
+    rows = matrix.shape[0]
+    blocks = [(start, min(start + block_rows, rows), k) for start in range(0, rows, block_rows)]
+    _profiles_of = matrix
+    try:
+        if workers > 1 and len(blocks) > 1:
+            with multiprocessing.get_context("fork").Pool(workers) as pool:
+                done = pool.starmap(_block, blocks, chunksize=1)
+        else:
+            done = [_block(*b) for b in blocks]
+    finally:
+        _profiles_of = None
+    index = np.zeros((rows, k), dtype=np.int32)
+    similarity = np.zeros((rows, k), dtype=np.float32)
+    for (start, stop, _), (idx, sims) in zip(blocks, done, strict=True):
+        index[start:stop], similarity[start:stop] = idx, sims
+    return index, similarity
+
+
 def title_table(
-    postings: Path, vocabulary: Mapping[str, int], config: DutiesSection, related: float = 0.3, seed: int = 1
+    postings: Path,
+    vocabulary: Mapping[str, int],
+    config: DutiesSection,
+    related: float = 0.3,
+    seed: int = 1,
+    workers: int = 1,
 ) -> TitleTable:
     """Read the scratch file of postings (`title entries<TAB>description entries<TAB>titles named` a line)
     twice: once to count the postings naming each title, once to gather their descriptions. `related`
     is the share of the split-half cosine below which two whole profiles are two different jobs (the
-    expansion option `related_duties`), for the chance measure."""
+    expansion option `related_duties`), for the chance measure. `workers` processes share the table's row
+    blocks."""
     named: Counter[str] = Counter()
     for _, _, names in _lines(postings):
         named.update(set(_words(names)))
@@ -217,14 +261,7 @@ def title_table(
         df[list(bag)] += 1
     idf = np.where(df > 0, np.log(len(keys) / np.maximum(df, 1)), 0.0)
     matrix = _profiles(gathered.whole, idf, width)
-    k = min(config.top_k, len(keys) - 1)
-    index = np.zeros((len(keys), k), dtype=np.int32)
-    similarity = np.zeros((len(keys), k), dtype=np.float32)
-    for start in range(0, len(keys), config.block_rows):
-        stop = min(start + config.block_rows, len(keys))
-        sims = (matrix[start:stop] @ matrix.T).toarray().astype(np.float32)
-        sims[np.arange(stop - start), np.arange(start, stop)] = -np.inf
-        index[start:stop], similarity[start:stop] = top_k_rows(sims, k)
+    index, similarity = _most_alike(matrix, min(config.top_k, len(keys) - 1), config.block_rows, workers)
     enough = [r for r, t in enumerate(keys) if named[t] >= SPLIT_HALF_POSTINGS]
     a = _profiles([gathered.halves[0][r] for r in enough], idf, width)
     b = _profiles([gathered.halves[1][r] for r in enough], idf, width)

@@ -44,7 +44,10 @@ def final_pass(
     parts = _parts(scratch.path, max(workers, 1))
     if len(parts) == 1:
         return _final_part(last, scratch.path, parts[0], names, phrased, postings)
-    outs = [(phrased.with_name(f"{phrased.name}.{n}"), postings.with_name(f"{postings.name}.{n}")) for n in range(len(parts))]
+    outs = [
+        (phrased.with_name(f"{phrased.name}.{n}"), postings.with_name(f"{postings.name}.{n}"))
+        for n in range(len(parts))
+    ]
     with multiprocessing.get_context("fork").Pool(len(parts) - 1) as pool:
         pending = [
             pool.apply_async(_final_part, (last, scratch.path, part, names, *out))

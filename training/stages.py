@@ -108,7 +108,14 @@ def titles_and_duties(model: Word2Vec, postings: Path, config: TrainConfig) -> T
     """Every title the postings name with its duties profile, its titles with alike duties, and how
     alike one job's profiles are at each size in this dump (`training.duties`)."""
     related = config.expansion.related_duties
-    return title_table(postings, model.wv.key_to_index, config.duties, related, seed=config.embedding.seed)
+    return title_table(
+        postings,
+        model.wv.key_to_index,
+        config.duties,
+        related,
+        seed=config.embedding.seed,
+        workers=config.corpus.workers,
+    )
 
 
 def write_files(
