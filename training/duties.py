@@ -215,7 +215,8 @@ def _most_alike(
     would)."""
     global _profiles_of
     rows = matrix.shape[0]
-    blocks = [(start, min(start + block_rows, rows), k) for start in range(0, rows, block_rows)]
+    step = max(block_rows // workers, 1)  # as many rows in the blocks being worked at once as one process has
+    blocks = [(start, min(start + step, rows), k) for start in range(0, rows, step)]
     _profiles_of = matrix
     try:
         if workers > 1 and len(blocks) > 1:
