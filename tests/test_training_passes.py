@@ -6,8 +6,12 @@ from __future__ import annotations
 import filecmp
 import io
 import itertools
+import json
+import os
 import random
 import shutil
+import subprocess
+import sys
 from pathlib import Path
 
 import numpy as np
@@ -147,3 +151,42 @@ def test_title_table_rows_in_workers_are_the_rows_one_process_finds() -> None:
     np.fill_diagonal(cosines, -np.inf)
     best = np.sort(cosines, axis=1)[:, ::-1][:, :5]
     assert np.allclose(one[1], best, atol=1e-6)
+
+
+_TABLE_IN_A_PROCESS = r"""
+import json, sys
+from pathlib import Path
+from training.config import DutiesSection
+from training.duties import title_table
+words = [f"w{n}" for n in range(60)]
+table = title_table(Path(sys.argv[1]), {w: n for n, w in enumerate(words)}, DutiesSection(min_postings=1), seed=1)
+print(json.dumps({"keys": table.keys, "index": table.index.tolist(), "stats": table.stats}))
+"""
+
+
+def test_title_table_is_the_same_whatever_python_s_hash_seed(tmp_path: Path) -> None:
+    # Postings naming several titles each: the order they are taken in decides the calibration sample.
+    rng = random.Random(5)
+    titles = [f"job{n}_worker" for n in range(12)]
+    lines = []
+    for _ in range(900):
+        job = rng.randrange(len(titles))
+        named = [job, (job + 1) % len(titles)][: rng.randrange(1, 3)]  # half the postings name two jobs
+        # Each job's duties are words of its own, some shared with the next job's.
+        body = " ".join(f"w{(5 * job + rng.randrange(10)) % 60}" for _ in range(rng.randrange(5, 25)))
+        named = [titles[n] for n in named]
+        lines.append(f"{named[0]}\t{body}\t{' '.join(named)}\n")
+    postings = tmp_path / "postings.txt"
+    postings.write_text("".join(lines), encoding="utf-8")
+    made = []
+    for seed in ("1", "2", "3"):
+        done = subprocess.run(
+            [sys.executable, "-c", _TABLE_IN_A_PROCESS, str(postings)],
+            env={**os.environ, "PYTHONHASHSEED": seed},
+            capture_output=True,
+            text=True,
+            check=True,
+        )
+        made.append(json.loads(done.stdout))
+    assert made[0]["stats"]["same_job"][2][2] > 0.1  # the calibration was measured
+    assert made[0] == made[1] == made[2]

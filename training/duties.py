@@ -109,7 +109,9 @@ def _gather(postings: Path, row_of: Mapping[str, int], vocabulary: Mapping[str, 
     rng = random.Random(seed)
     words_of = functools.cache(lambda entry: entry.split(PHRASE_JOINER))
     for number, (head, body, names) in enumerate(_lines(postings)):
-        mine = [row_of[t] for t in set(_words(names)) if t in row_of]
+        # In the order the posting names them (a set's order would change with Python's hash seed, and
+        # with it which postings the reservoir keeps).
+        mine = [row_of[t] for t in dict.fromkeys(_words(names)) if t in row_of]
         if not mine:
             continue
         own = {w for t in _words(head) + _words(names) for w in t.split(PHRASE_JOINER)}
