@@ -171,10 +171,9 @@ def test_title_table_is_the_same_whatever_python_s_hash_seed(tmp_path: Path) -> 
     lines = []
     for _ in range(900):
         job = rng.randrange(len(titles))
-        named = [job, (job + 1) % len(titles)][: rng.randrange(1, 3)]  # half the postings name two jobs
+        named = [titles[job], titles[(job + 1) % len(titles)]][: rng.randrange(1, 3)]  # half name two jobs
         # Each job's duties are words of its own, some shared with the next job's.
         body = " ".join(f"w{(5 * job + rng.randrange(10)) % 60}" for _ in range(rng.randrange(5, 25)))
-        named = [titles[n] for n in named]
         lines.append(f"{named[0]}\t{body}\t{' '.join(named)}\n")
     postings = tmp_path / "postings.txt"
     postings.write_text("".join(lines), encoding="utf-8")
