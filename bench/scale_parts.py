@@ -170,10 +170,12 @@ def serving(store: Path, prepare_entries: int, queries: list[str]) -> dict[str, 
 
 def swap_under_load(store: Path, log: Path, work: Path, seconds: int = 120) -> dict[str, Any]:
     """wrk replays the day's query log (32 connections, round and round) while the next bundle is published:
-    failed requests, p99, and how long the new bundle took to serve."""
+    failed requests, p99, and how long the new bundle took to serve; and, first, the same load as long with
+    no swap (`steady`), the latencies the swap's are to be read against."""
     paths, _, _ = log_paths(log, work / "replay-paths.txt")
     result: dict[str, Any] = {"seconds": seconds}
     with live_server(store, ready_within=600) as server:
+        result["steady"] = replay_loop(server.base, seconds, paths, 32)
         load = threading.Thread(target=lambda: result.update(replay_loop(server.base, seconds, paths, 32)))
         load.start()
         time.sleep(seconds * 0.2)  # steady load first (a pause in the bench, never in a test)
