@@ -16,7 +16,6 @@ from __future__ import annotations
 import argparse
 import filecmp
 import json
-import os
 import subprocess
 import sys
 import time
@@ -28,37 +27,17 @@ from gensim.models import KeyedVectors
 
 from bench.common import ROOT, machine
 from bench.scale import _data
+from bench.scale_parts import train_once
 
 __all__ = ["main", "train_at"]
-
-_TRAIN = r"""
-import io, json, sys
-from pathlib import Path
-from training.config import load_config
-from training.pipeline import train
-done = train(Path(sys.argv[1]), Path(sys.argv[2]), load_config(None, json.loads(sys.argv[3])), force=True,
-             out=io.StringIO())
-print(json.dumps({"version": done.version, "seconds": done.seconds}))
-"""
 
 #: The manifest fields that must agree (the rest name the run: version, dates, times, software).
 _COUNTS = ("vocabulary_size", "phrase_count", "corpus", "concepts")
 
 
 def train_at(source: Path, dump: Path, store: Path, overrides: dict[str, Any]) -> Path:
-    """Train `dump` with the code at `source` into `store`; returns the bundle's folder."""
-    env = {**os.environ, "PYTHONPATH": str(source), "PYTHONHASHSEED": "0"}
-    done = subprocess.run(
-        [sys.executable, "-c", _TRAIN, str(dump), str(store), json.dumps(overrides)],
-        env=env,
-        cwd=source,
-        capture_output=True,
-        text=True,
-    )
-    if done.returncode != 0:
-        raise SystemExit(f"training at {source} failed: {done.stderr[-2000:]}")
-    version = str(json.loads(done.stdout.strip().splitlines()[-1])["version"])
-    return store / "bundles" / version
+    """Train `dump` with the code at `source` into `store` (hash seed 0); returns the bundle's folder."""
+    return store / "bundles" / str(train_once(dump, store, overrides, source=source, hash_seed="0")["version"])
 
 
 def _same(before: Path, now: Path, name: str) -> bool:

@@ -5,6 +5,7 @@ from __future__ import annotations
 import contextlib
 import hashlib
 import json
+import os
 import statistics
 import subprocess
 import sys
@@ -78,16 +79,24 @@ print(json.dumps({"inner_s": done - started, "phrases_s": phrased - started, "sk
 """
 
 
-def train_once(dump: Path, store: Path, overrides: dict[str, Any]) -> dict[str, Any]:
-    """`widen train` in a process of its own: wall time, each stage's time, peak RSS of it and its workers."""
+def train_once(
+    dump: Path, store: Path, overrides: dict[str, Any], source: Path = ROOT, hash_seed: str | None = None
+) -> dict[str, Any]:
+    """`widen train` in a process of its own, with the code at `source` (this checkout by default) and,
+    when given, a fixed Python hash seed: wall time, each stage's time, peak RSS of it and its workers."""
     started = time.perf_counter()
+    env = {**os.environ, "PYTHONPATH": str(source)}
+    if hash_seed is not None:
+        env["PYTHONHASHSEED"] = hash_seed
     out = subprocess.run(
         [sys.executable, "-c", _TRAIN, str(dump), str(store), json.dumps(overrides)],
-        check=True,
         capture_output=True,
         text=True,
-        cwd=ROOT,
+        cwd=source,
+        env=env,
     )
+    if out.returncode != 0:
+        raise SystemExit(f"training at {source} failed: {out.stderr[-2000:]}")
     got: dict[str, Any] = json.loads(out.stdout.strip().splitlines()[-1])
     got["wall_s"] = round(time.perf_counter() - started, 1)
     return got
