@@ -2,7 +2,7 @@
 
 One worker: uvicorn alone. Several: gunicorn, a process manager that loads the app once in its
 parent and forks the workers from it (`preload_app`), each running uvicorn's worker class
-(uvicorn-worker). The workers then share the parent's loaded libraries and bundle pages instead of
+(uvicorn-worker, `service.forked`). The workers then share the parent's loaded libraries and bundle pages instead of
 each loading its own copy; see `service.app.preloaded_app` for the garbage-collector part.
 """
 
@@ -95,7 +95,7 @@ def _preforked(settings: Settings) -> None:
             for key, value in {
                 "bind": f"{settings.host}:{settings.port}",
                 "workers": settings.workers,
-                "worker_class": "uvicorn_worker.UvicornWorker",
+                "worker_class": "service.forked.SharedUvicornWorker",
                 "preload_app": True,
                 "post_fork": _after_fork,
                 "child_exit": _worker_gone,
@@ -110,7 +110,9 @@ def _preforked(settings: Settings) -> None:
 
         def load(self) -> Any:
             from service.app import preloaded_app
+            from service.forked import preimport
 
+            preimport()  # before the app: preloaded_app freezes every object made so far
             return preloaded_app()
 
     Preforked().run()

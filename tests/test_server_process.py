@@ -103,6 +103,8 @@ def test_workers_fork_from_a_parent_that_loaded_the_bundle_and_each_swaps_and_co
         # Loaded before the fork: the parent itself maps the serving bundle's arrays.
         bundle_dir = str(store / "bundles" / serving)
         assert any(m.path.startswith(bundle_dir) for m in parent.memory_maps())
+        # And the event loop and HTTP parser the workers run (service.forked): loaded once, shared.
+        assert {"uvloop", "httptools"} <= {p for m in parent.memory_maps() for p in Path(m.path).parts}
         assert _model_versions_seen(server.base, 12) == {serving}
         hits = httpx.post(f"{server.base}/demo/search", json={"query_text": '"staff nurse"'}).json()["hits"]
         assert hits  # the demo index opened in the parent answers in the workers
