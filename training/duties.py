@@ -22,8 +22,6 @@ cosine of a frequent title's two halves (`split_half`) is the same-job scale at 
 
 from __future__ import annotations
 
-import functools
-import math
 import multiprocessing
 import random
 from collections import Counter
@@ -37,9 +35,9 @@ import numpy.typing as npt
 from scipy import sparse
 
 from training.config import DutiesSection
+from training.profiles import Bag, gather, lines, profiles, summed, words
 from training.titles import fragments
 from widen.model.neighbours import top_k_rows
-from widen.text.forms import PHRASE_JOINER
 
 __all__ = ["TitleTable", "title_table", "SIZES"]
 
@@ -64,87 +62,15 @@ class TitleTable:
     stats: dict[str, Any] = field(default_factory=dict)
 
 
-def _words(entries: str) -> list[str]:
-    return entries.split() if entries else []
-
-
-def _lines(postings: Path) -> Any:
-    with postings.open(encoding="utf-8") as fh:
-        for line in fh:
-            head, _, rest = line.rstrip("\n").partition("\t")
-            body, _, names = rest.partition("\t")
-            yield head, body, names
-
-
-def _profiles(bags: list[Counter[int]], idf: npt.NDArray[np.float64], width: int) -> sparse.csr_matrix:
-    """Rows of log(1 + count) x idf, at unit length."""
-    rows, cols, vals = [], [], []
-    for r, bag in enumerate(bags):
-        for col, n in bag.items():
-            rows.append(r)
-            cols.append(col)
-            vals.append(math.log1p(n) * idf[col])
-    matrix = sparse.csr_matrix((vals, (rows, cols)), shape=(len(bags), width), dtype=np.float64)
-    norms = np.sqrt(np.asarray(matrix.multiply(matrix).sum(axis=1)).ravel())
-    norms[norms == 0] = 1.0
-    return sparse.csr_matrix(sparse.diags(1.0 / norms) @ matrix)
-
-
-@dataclass
-class _Gathered:
-    """What the second read of the postings gathers: each title's whole bag, its two halves, and a
-    sample of its postings' own bags (for the size calibration)."""
-
-    whole: list[Counter[int]]
-    halves: list[list[Counter[int]]]
-    kept: list[list[Counter[int]]]
-
-
-def _gather(postings: Path, row_of: Mapping[str, int], vocabulary: Mapping[str, int], seed: int) -> _Gathered:
-    size = len(row_of)
-    whole: list[Counter[int]] = [Counter() for _ in range(size)]
-    halves: list[list[Counter[int]]] = [[Counter() for _ in range(size)] for _ in range(2)]
-    kept: list[list[Counter[int]]] = [[] for _ in range(size)]
-    seen = [0] * size
-    rng = random.Random(seed)
-    words_of = functools.cache(lambda entry: entry.split(PHRASE_JOINER))
-    for number, (head, body, names) in enumerate(_lines(postings)):
-        # In the order the posting names them (a set's order would change with Python's hash seed, and
-        # with it which postings the reservoir keeps).
-        mine = [row_of[t] for t in dict.fromkeys(_words(names)) if t in row_of]
-        if not mine:
-            continue
-        own = {w for t in _words(head) + _words(names) for w in t.split(PHRASE_JOINER)}
-        said: Counter[int] = Counter()
-        for e, n in Counter(_words(body)).items():  # counted once each, in the order first said
-            if e in vocabulary and own.isdisjoint(words_of(e)):
-                said[vocabulary[e]] = n
-        for r in mine:
-            whole[r].update(said)
-            halves[number % 2][r].update(said)
-            seen[r] += 1
-            if len(kept[r]) < _KEPT:  # a reservoir sample of the title's postings
-                kept[r].append(said)
-            elif (j := rng.randrange(seen[r])) < _KEPT:
-                kept[r][j] = said
-    return _Gathered(whole, halves, kept)
-
-
 def _sample_profiles(
-    kept: list[list[Counter[int]]], picks: list[tuple[int, list[int]]], idf: npt.NDArray[np.float64], width: int
+    kept: list[list[Bag]], picks: list[tuple[int, list[int]]], idf: npt.NDArray[np.float64], width: int
 ) -> sparse.csr_matrix:
-    """One profile a pick: the sum of the chosen postings' bags of one title, weighted as `_profiles` does."""
-    bags = []
-    for t, chosen in picks:
-        bag: Counter[int] = Counter()
-        for n in chosen:
-            bag.update(kept[t][n])
-        bags.append(bag)
-    return _profiles(bags, idf, width)
+    """One profile a pick: the sum of the chosen postings' bags of one title, weighted as the titles' are."""
+    return profiles(summed([[kept[t][n] for n in chosen] for t, chosen in picks], width), idf)
 
 
 def _calibration(
-    kept: list[list[Counter[int]]], full: sparse.csr_matrix, idf: npt.NDArray[np.float64], apart: float, seed: int
+    kept: list[list[Bag]], full: sparse.csr_matrix, idf: npt.NDArray[np.float64], apart: float, seed: int
 ) -> dict[str, Any]:
     """The same-job median and the chance quantiles of the profile cosine, for each pair of sizes. Chance
     is measured on pairs of titles whose whole profiles are less alike than `apart` (two names of one
@@ -249,25 +175,23 @@ def title_table(
     expansion option `related_duties`), for the chance measure. `workers` processes share the table's row
     blocks."""
     named: Counter[str] = Counter()
-    for _, _, names in _lines(postings):
-        named.update(set(_words(names)))
+    for _, _, names in lines(postings):
+        named.update(set(words(names)))
     pieces = fragments(named)
     keys = sorted(t for t, n in named.items() if n >= config.min_postings and t not in pieces)
     empty = TitleTable(keys[:0], [], np.zeros((0, 0), np.int32), np.zeros((0, 0), np.float32), {"titles": 0})
     if len(keys) < 2:
         return empty
     row_of = {t: i for i, t in enumerate(keys)}
-    gathered = _gather(postings, row_of, vocabulary, seed)
+    gathered = gather(postings, row_of, vocabulary, seed, _KEPT)
     width = len(vocabulary)
-    df = np.zeros(width, dtype=np.float64)
-    for bag in gathered.whole:
-        df[list(bag)] += 1
+    df = np.bincount(gathered.whole.indices, minlength=width).astype(np.float64)
     idf = np.where(df > 0, np.log(len(keys) / np.maximum(df, 1)), 0.0)
-    matrix = _profiles(gathered.whole, idf, width)
+    matrix = profiles(gathered.whole, idf)
     index, similarity = _most_alike(matrix, min(config.top_k, len(keys) - 1), config.block_rows, workers)
     enough = [r for r, t in enumerate(keys) if named[t] >= SPLIT_HALF_POSTINGS]
-    a = _profiles([gathered.halves[0][r] for r in enough], idf, width)
-    b = _profiles([gathered.halves[1][r] for r in enough], idf, width)
+    a = profiles(gathered.halves[0][enough], idf)
+    b = profiles(gathered.halves[1][enough], idf)
     split = np.asarray(a.multiply(b).sum(axis=1)).ravel()
     split_half = round(float(np.median(split)), 4) if len(enough) else None
     stats: dict[str, Any] = {
