@@ -75,7 +75,8 @@ def main() -> None:
     parser.add_argument("--corpus", type=Path, help="a dump (default: the 20,000-posting real-title board)")
     args = parser.parse_args()
     args.out.mkdir(parents=True, exist_ok=True)
-    dump = args.corpus or _data(ROOT / "build" / "scale", 20_000) / "postings.jsonl"
+    # Resolved: each training runs in its own checkout's folder.
+    dump = (args.corpus or _data(ROOT / "build" / "scale", 20_000) / "postings.jsonl").resolve()
     commit = subprocess.run(["git", "rev-parse", args.before], cwd=ROOT, capture_output=True, text=True, check=True)
     before_src = args.out / f"src-{commit.stdout.strip()[:10]}"
     if not before_src.is_dir():
