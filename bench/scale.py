@@ -12,6 +12,7 @@ Jobs, `demo_postings/fellhaven.py`; generated once into OUT/N/data and kept):
   phrase passes above, plus widen's own skip-gram stage, which is Word2Vec on widen's corpus);
 - **serving**: `widen serve` from start to ready, RSS and PSS with 1 and 2 workers, with the busiest
   `WIDEN_PREPARE_ENTRIES` entries prepared (the service's default) and with every entry prepared;
+  and PSS as the day's log goes through 1 and 2 workers (after 200, 2,000, 20,000 queries);
 - **a hot swap under load**: wrk replays the day's query log while the next bundle is published:
   failed requests, p99, seconds until the new bundle answers;
 - **expand** in-process, head and tail title queries: the first call and a repeat, medians;
@@ -33,7 +34,16 @@ from pathlib import Path
 from typing import Any
 
 from bench.common import machine
-from bench.scale_parts import bundle_size, expand_by_band, gensim_alone, serving, swap_under_load, tagging, train_once
+from bench.scale_parts import (
+    bundle_size,
+    expand_by_band,
+    gensim_alone,
+    serving,
+    swap_under_load,
+    tagging,
+    through_the_day,
+    train_once,
+)
 from demo_postings.generate import generate
 from service.settings import Settings
 from widen.evaluation.runs import read_queries
@@ -81,6 +91,7 @@ def measure(out: Path, postings: int, skip: set[str], earlier: dict[str, Any] | 
     if "serving" not in skip:
         row["serving"] = serving(store, DEFAULT_PREPARED, typed)
         row["serving_all_prepared"] = serving(store, ALL, typed)
+        row["serving_day"] = through_the_day(store, data / "query_log.jsonl", DEFAULT_PREPARED)
     row["expand"] = expand_by_band(store, data / "queries.jsonl", DEFAULT_PREPARED)
     row["tagging"] = tagging(store, data / "postings.jsonl", work)
     if "swap" not in skip:  # last: it publishes a copy of the bundle as the next night's

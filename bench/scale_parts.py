@@ -11,6 +11,7 @@ import subprocess
 import sys
 import threading
 import time
+from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 from typing import Any
 
@@ -32,7 +33,16 @@ from widen.expansion.expand import expand, prepare
 from widen.model.store import Store
 from widen.text.tokenize import sentences
 
-__all__ = ["train_once", "gensim_alone", "bundle_size", "serving", "swap_under_load", "expand_by_band", "tagging"]
+__all__ = [
+    "train_once",
+    "gensim_alone",
+    "bundle_size",
+    "serving",
+    "through_the_day",
+    "swap_under_load",
+    "expand_by_band",
+    "tagging",
+]
 
 _TRAIN = r"""
 import io, json, resource, sys
@@ -174,6 +184,44 @@ def serving(store: Path, prepare_entries: int, queries: list[str]) -> dict[str, 
                 "pss_mib": round(_pss_kib(server.process.pid) / 1024, 1),
             }
     got["pss_2_over_1"] = round(got["2_worker"]["pss_mib"] / got["1_worker"]["pss_mib"], 3)
+    return got
+
+
+def _pss_as_the_day_goes(base: str, pid: int, day: list[str], marks: tuple[int, ...]) -> dict[str, float]:
+    clients = [httpx.Client(base_url=base, timeout=30) for _ in range(4)]
+
+    def ask(n: int) -> httpx.Response:
+        return clients[n % 4].get("/v1/expand", params={"q": day[n]})
+
+    done, seen = 0, {}
+    try:
+        for mark in marks:
+            with ThreadPoolExecutor(4) as pool:
+                for answer in pool.map(ask, range(done, min(mark, len(day)))):
+                    answer.raise_for_status()
+            done = mark
+            seen[str(mark)] = round(_pss_kib(pid) / 1024, 1)
+    finally:
+        for client in clients:
+            client.close()
+    return seen
+
+
+def through_the_day(
+    store: Path, log: Path, prepare_entries: int, marks: tuple[int, ...] = (200, 2_000, 20_000)
+) -> dict[str, Any]:
+    """PSS of 1 and of 2 workers as the day's log goes through them, in order, over 4 connections: each
+    worker keeps its own answers and its own tail entries, so the two grow apart from one served process."""
+    day = [json.loads(line)["q"] for line in log.read_text(encoding="utf-8").splitlines() if line.strip()]
+    got: dict[str, Any] = {"prepare_entries": prepare_entries, "connections": 4}
+    for workers in (1, 2):
+        env = {"WIDEN_PREPARE_ENTRIES": str(prepare_entries)}
+        with live_server(store, env, args=("--workers", str(workers)), ready_within=600) as server:
+            seen = _pss_as_the_day_goes(server.base, server.process.pid, day, marks)
+        got[f"{workers}_worker_pss_mib"] = seen
+    got["pss_2_over_1"] = {
+        m: round(got["2_worker_pss_mib"][m] / got["1_worker_pss_mib"][m], 3) for m in got["1_worker_pss_mib"]
+    }
     return got
 
 
