@@ -69,16 +69,17 @@ def test_gathering_in_chunks_sums_and_keeps_what_the_plain_counters_do(
     path = _postings(tmp_path / "postings.txt", 3000)
     row_of = {t: n for n, t in enumerate(["care_assistant", "chef", "cleaner", "hgv_driver", "porter", "staff_nurse"])}
     even, odd, kept = _plain(path, row_of, keep=8, seed=3)
-    monkeypatch.setattr(profiles, "CHUNK", 7)  # many chunks: reservoir slots refilled across them
-    got = gather(path, row_of, _VOCABULARY, seed=3, keep=8)
-    assert _as_counters(got.halves[0]) == even and _as_counters(got.halves[1]) == odd
-    assert _as_counters(got.whole) == [a + b for a, b in zip(even, odd, strict=True)]
+    monkeypatch.setattr(profiles, "CHUNK", 7)  # many chunks, and parts cut mid-chunk
+    for workers in (1, 2, 3):
+        got = gather(path, row_of, _VOCABULARY, seed=3, keep=8, workers=workers)
+        assert _as_counters(got.halves[0]) == even and _as_counters(got.halves[1]) == odd
+        assert _as_counters(got.whole) == [a + b for a, b in zip(even, odd, strict=True)]
+        for mine, plain in zip(got.kept, kept, strict=True):
+            assert len(mine) == len(plain) == 8
+            assert [Counter(dict(zip(c.tolist(), n.tolist(), strict=True))) for c, n in mine] == plain
     assert sum(even[0].values()) > 1000  # the postings did say things
     # The title's own words are left out: "care assistant" never counts "care" or "assistant".
     assert not {_VOCABULARY["care"], _VOCABULARY["assistant"]} & set(got.whole[0].indices.tolist())
-    for mine, plain in zip(got.kept, kept, strict=True):
-        assert len(mine) == len(plain) == 8
-        assert [Counter(dict(zip(c.tolist(), n.tolist(), strict=True))) for c, n in mine] == plain
 
 
 def test_profiles_weigh_each_entry_as_log_one_plus_count_times_idf_at_unit_length() -> None:

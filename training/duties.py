@@ -183,7 +183,7 @@ def title_table(
     if len(keys) < 2:
         return empty
     row_of = {t: i for i, t in enumerate(keys)}
-    gathered = gather(postings, row_of, vocabulary, seed, _KEPT)
+    gathered = gather(postings, row_of, vocabulary, seed, _KEPT, workers)
     width = len(vocabulary)
     df = np.bincount(gathered.whole.indices, minlength=width).astype(np.float64)
     idf = np.where(df > 0, np.log(len(keys) / np.maximum(df, 1)), 0.0)

@@ -4,9 +4,11 @@
 description's entries with how often each is said (the title's own words left out, see
 `training.duties`). The bags are summed per title a chunk of postings at a time, as one sparse
 product (titles x postings of the chunk, times postings x entries), so the sums are made in
-compiled code, not entry by entry; counts are integers, so the sums are exact in any order. A
-reservoir sample of each title's bags is kept too, as two small arrays each (entries and counts),
-for the size calibration.
+compiled code, not entry by entry; counts are integers, so the sums are exact in any order, and
+the file is read in parts by `corpus.workers` processes. A reservoir sample of each title's bags
+is kept too, as two small arrays each (entries and counts), for the size calibration; which
+postings it keeps depends only on the titles each posting names, so it is drawn first, in the
+postings' order, in one quick read of the last column.
 
 `profiles` weighs a title x entries count matrix into unit-length TF-IDF rows.
 """
@@ -14,12 +16,15 @@ for the size calibration.
 from __future__ import annotations
 
 import functools
+import itertools
 import math
+import multiprocessing
 import random
 from collections import Counter
 from collections.abc import Iterator, Mapping
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import numpy.typing as npt
@@ -30,7 +35,7 @@ from widen.text.forms import PHRASE_JOINER
 __all__ = ["Bag", "Gathered", "gather", "lines", "profiles", "summed", "words"]
 
 #: A posting's bag: the entries' columns and how often each is said.
-Bag = tuple[npt.NDArray[np.int32], npt.NDArray[np.int64]]
+Bag = tuple[npt.NDArray[np.int32], npt.NDArray[np.int32]]
 
 #: Postings whose bags are summed into the title sums at once.
 CHUNK = 10_000
@@ -131,57 +136,143 @@ class _Sums:
         return self.sums[0], self.sums[1]
 
 
-def gather(postings: Path, row_of: Mapping[str, int], vocabulary: Mapping[str, int], seed: int, keep: int) -> Gathered:
-    """Read the postings once (see the module); `keep` bags a title in its reservoir."""
-    sums = _Sums(len(row_of), len(vocabulary))
-    kept: list[list[Bag | int]] = [[] for _ in range(len(row_of))]
-    waiting: list[tuple[int, int]] = []  # (title, slot) holding a posting of the chunk not yet in arrays
+@dataclass
+class _Plan:
+    """What the reading needs before it starts: which posting each slot of each title's reservoir ends
+    with, and where the file is cut into parts (byte offset, number of the posting there)."""
+
+    holders: list[list[int]]
+    cuts: list[tuple[int, int]]
+
+
+def _plan(postings: Path, row_of: Mapping[str, int], seed: int, keep: int, parts: int) -> _Plan:
+    """Draw every title's reservoir sample from the titles each posting names alone (the draw needs
+    nothing else), in the postings' order, as reading them one after another would."""
+    holders: list[list[int]] = [[] for _ in range(len(row_of))]
     seen = [0] * len(row_of)
     rng = random.Random(seed)
+    size = postings.stat().st_size
+    cuts, offset, number = [(0, 0)], 0, 0
+    with postings.open("rb") as fh:
+        for number, raw in enumerate(fh):
+            if offset * parts >= size * len(cuts) and len(cuts) < parts:
+                cuts.append((offset, number))
+            offset += len(raw)
+            fields = raw.rstrip(b"\n").split(b"\t", 2)  # as `lines` cuts them
+            names = fields[2].decode("utf-8").split() if len(fields) == 3 else []
+            # In the order the posting names them (a set's order would change with Python's hash seed).
+            for r in [row_of[t] for t in dict.fromkeys(names) if t in row_of]:
+                seen[r] += 1
+                if len(holders[r]) < keep:
+                    holders[r].append(number)
+                elif (j := rng.randrange(seen[r])) < keep:
+                    holders[r][j] = number
+    cuts.append((offset, number + 1))
+    return _Plan(holders, cuts)
+
+
+# What a forked worker reads its part with (set before the fork, so nothing large is pickled).
+_reading: tuple[Path, Mapping[str, int], Mapping[str, int], frozenset[int]] | None = None
+
+
+class _KeptBags:
+    """The bags a part's reservoirs keep, in four arrays (few objects to hand back from a worker):
+    posting numbers, where each bag ends, and all the bags' columns and counts one after another."""
+
+    def __init__(self) -> None:
+        self.numbers: list[int] = []
+        self.ends: list[int] = [0]
+        self.cols: list[npt.NDArray[np.int32]] = []
+        self.counts: list[npt.NDArray[np.int32]] = []
+
+    def settle(
+        self, pending: dict[int, int], chunk: tuple[npt.NDArray[np.int32], npt.NDArray[np.int64], npt.NDArray[np.int64]]
+    ) -> None:
+        """Take the chunk's kept bags (posting number -> place in the chunk) out of its arrays."""
+        cols, counts, ends = chunk
+        for number, place in pending.items():
+            a, b = int(ends[place]), int(ends[place + 1])
+            self.numbers.append(number)
+            self.ends.append(self.ends[-1] + b - a)
+            self.cols.append(cols[a:b].copy())  # a view would keep the whole chunk alive
+            self.counts.append(counts[a:b].astype(np.int32))
+        pending.clear()
+
+    def packed(
+        self,
+    ) -> tuple[npt.NDArray[np.int64], npt.NDArray[np.int64], npt.NDArray[np.int32], npt.NDArray[np.int32]]:
+        none = np.zeros(0, dtype=np.int32)
+        return (
+            np.array(self.numbers, dtype=np.int64),
+            np.array(self.ends, dtype=np.int64),
+            np.concatenate([none, *self.cols]),
+            np.concatenate([none, *self.counts]),
+        )
+
+
+def _read_part(
+    start: int, stop: int, number: int
+) -> tuple[tuple[sparse.csr_matrix, sparse.csr_matrix], tuple[npt.NDArray[Any], ...]]:
+    """The title sums of the postings between two byte offsets (`number`: the first one's), and the bags
+    of those any reservoir keeps, packed (runs in a worker, too)."""
+    assert _reading is not None
+    postings, row_of, vocabulary, wanted = _reading
+    sums = _Sums(len(row_of), len(vocabulary))
+    kept = _KeptBags()
+    pending: dict[int, int] = {}  # posting number -> its place in the chunk
     words_of = functools.cache(lambda entry: entry.split(PHRASE_JOINER))
-    for number, (head, body, names) in enumerate(lines(postings)):
-        # In the order the posting names them (a set's order would change with Python's hash seed, and
-        # with it which postings the reservoir keeps).
-        mine = [row_of[t] for t in dict.fromkeys(words(names)) if t in row_of]
-        if not mine:
-            continue
-        own = {w for t in words(head) + words(names) for w in t.split(PHRASE_JOINER)}
-        said: Counter[int] = Counter()
-        for e, n in Counter(words(body)).items():  # counted once each, in the order first said
-            if e in vocabulary and own.isdisjoint(words_of(e)):
-                said[vocabulary[e]] = n
-        place = sums.add(said, mine, number % 2)
-        for r in mine:
-            seen[r] += 1
-            if len(kept[r]) < keep:  # a reservoir sample of the title's postings
-                kept[r].append(place)
-                waiting.append((r, len(kept[r]) - 1))
-            elif (j := rng.randrange(seen[r])) < keep:
-                kept[r][j] = place
-                waiting.append((r, j))
-        if len(sums.ends) > CHUNK:
-            _settle(kept, waiting, sums.flush())
-    _settle(kept, waiting, sums.flush())
-    halves = sums.done()
+    with postings.open("rb") as fh:
+        fh.seek(start)
+        while fh.tell() < stop:
+            head, _, rest = fh.readline().decode("utf-8").rstrip("\n").partition("\t")
+            body, _, names = rest.partition("\t")
+            mine = [row_of[t] for t in dict.fromkeys(words(names)) if t in row_of]
+            if mine:
+                own = {w for t in words(head) + words(names) for w in t.split(PHRASE_JOINER)}
+                said: Counter[int] = Counter()
+                for e, n in Counter(words(body)).items():  # counted once each, in the order first said
+                    if e in vocabulary and own.isdisjoint(words_of(e)):
+                        said[vocabulary[e]] = n
+                place = sums.add(said, mine, number % 2)
+                if number in wanted:
+                    pending[number] = place
+                if len(sums.ends) > CHUNK:
+                    kept.settle(pending, sums.flush())
+            number += 1
+    kept.settle(pending, sums.flush())
+    return sums.done(), kept.packed()
+
+
+def gather(
+    postings: Path, row_of: Mapping[str, int], vocabulary: Mapping[str, int], seed: int, keep: int, workers: int = 1
+) -> Gathered:
+    """Read the postings (see the module); `keep` bags a title in its reservoir. The reservoirs are drawn
+    first, from the titles each posting names; then `workers` processes (this one and forked ones) each
+    read a part of the file, and their sums are added up (exact: integers)."""
+    global _reading
+    plan = _plan(postings, row_of, seed, keep, max(workers, 1))
+    wanted = frozenset(n for slots in plan.holders for n in slots)
+    parts = [(a, b, n) for (a, n), (b, _) in itertools.pairwise(plan.cuts) if b > a]
+    _reading = (postings, row_of, vocabulary, wanted)
+    try:
+        if len(parts) > 1:
+            with multiprocessing.get_context("fork").Pool(len(parts) - 1) as pool:
+                pending = [pool.apply_async(_read_part, part) for part in parts[1:]]
+                done = [_read_part(*parts[0])] + [p.get() for p in pending]
+        else:
+            done = [_read_part(*part) for part in parts]
+    finally:
+        _reading = None
+    empty = sparse.csr_matrix((len(row_of), len(vocabulary)), dtype=np.int64)
+    halves = [empty, empty]
+    bags: dict[int, Bag] = {}
+    for (even, odd), (numbers, ends, cols, counts) in done:
+        halves = [halves[0] + even, halves[1] + odd]
+        for n, a, b in zip(numbers.tolist(), ends[:-1].tolist(), ends[1:].tolist(), strict=True):
+            bags[n] = (cols[a:b], counts[a:b])  # views of the part's arrays, which all stay kept
+    for half in halves:
+        half.sum_duplicates()
     whole = halves[0] + halves[1]
     whole.sum_duplicates()
-    return Gathered(whole, halves, kept)  # type: ignore[arg-type]  # every slot settled to a bag
-
-
-def _settle(
-    kept: list[list[Bag | int]],
-    waiting: list[tuple[int, int]],
-    chunk: tuple[npt.NDArray[np.int32], npt.NDArray[np.int64], npt.NDArray[np.int64]],
-) -> None:
-    """Replace the chunk's places still held in the reservoirs by the bags' own arrays (copies: a view
-    would keep the whole chunk alive)."""
-    cols, counts, ends = chunk
-    made: dict[int, Bag] = {}
-    for r, slot in waiting:
-        place = kept[r][slot]
-        if isinstance(place, int):
-            if place not in made:
-                a, b = int(ends[place]), int(ends[place + 1])
-                made[place] = (cols[a:b].copy(), counts[a:b].copy())
-            kept[r][slot] = made[place]
-    waiting.clear()
+    kept = [[bags[n] for n in slots] for slots in plan.holders]
+    return Gathered(whole, (halves[0], halves[1]), kept)
