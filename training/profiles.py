@@ -1,6 +1,6 @@
 """What the postings naming each title say, summed into sparse count matrices, and counts into profiles.
 
-`gather` reads the scratch file of postings once. Each posting naming a title becomes a bag: the
+`gather` reads the scratch file of postings: each posting naming a title becomes a bag, the
 description's entries with how often each is said (the title's own words left out, see
 `training.duties`). The bags are summed per title a chunk of postings at a time, as one sparse
 product (titles x postings of the chunk, times postings x entries), so the sums are made in
