@@ -12,9 +12,10 @@ import time
 
 import numpy as np
 import numpy.typing as npt
-from numba import get_num_threads, get_thread_id, njit, prange  # type: ignore[attr-defined]
+from numba import get_num_threads, njit, prange  # type: ignore[attr-defined]
 from threadpoolctl import threadpool_limits
 
+from widen.model.neighbour_kernel import product_tile
 from widen.model.neighbours import _rounds
 
 __all__ = ["bare_triangle"]
@@ -28,14 +29,9 @@ def _tiles(
     second: npt.NDArray[np.int64],
     buffers: npt.NDArray[np.float32],
 ) -> float:
-    vocab = normed.shape[0]
     touched = 0.0
     for t in prange(first.shape[0]):
-        a0, a1 = first[t] * tile_rows, min((first[t] + 1) * tile_rows, vocab)
-        b0, b1 = second[t] * tile_rows, min((second[t] + 1) * tile_rows, vocab)
-        tile = buffers[get_thread_id()].reshape(-1)[: (a1 - a0) * (b1 - b0)].reshape((a1 - a0, b1 - b0))
-        np.dot(normed[a0:a1], normed[b0:b1].T, tile)
-        touched += tile[0, 0]  # read back, so no step can be left out
+        touched += product_tile(normed, tile_rows, first[t], second[t], buffers)[0, 0]  # read back
     return touched
 
 

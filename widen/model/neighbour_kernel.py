@@ -22,7 +22,7 @@ import numpy as np
 import numpy.typing as npt
 from numba import get_thread_id, njit, prange  # type: ignore[attr-defined]
 
-__all__ = ["take_tiles", "sort_heaps", "nth_largest", "NO_ENTRY"]
+__all__ = ["take_tiles", "product_tile", "sort_heaps", "nth_largest", "NO_ENTRY"]
 
 #: The index of an empty heap slot (paired with similarity -inf): worse than any real entry.
 NO_ENTRY = np.iinfo(np.int32).max
@@ -127,16 +127,24 @@ def take_tiles(
     """Tiles (I, J), I <= J, of `V @ V.T`, none sharing a block with another (so no two threads
     touch one heap): each tile's product (one BLAS call, one thread) is offered by rows to block
     I and, unless I == J, by columns to block J, while it is still in the core's cache."""
-    vocab = normed.shape[0]
     for t in prange(first_blocks.shape[0]):
         i, j = first_blocks[t], second_blocks[t]
-        a0, a1 = i * tile_rows, min((i + 1) * tile_rows, vocab)
-        b0, b1 = j * tile_rows, min((j + 1) * tile_rows, vocab)
-        # Each thread writes its tiles into its own buffer: a new array a tile would be mapped
-        # and unmapped every time (page faults, and the other core's TLB flushed).
-        tile = buffers[get_thread_id()].reshape(-1)[: (a1 - a0) * (b1 - b0)].reshape((a1 - a0, b1 - b0))
-        np.dot(normed[a0:a1], normed[b0:b1].T, tile)
-        _tile_pass(tile, a0, b0, heap_val, heap_idx, floor, i == j)
+        tile = product_tile(normed, tile_rows, i, j, buffers)
+        _tile_pass(tile, i * tile_rows, j * tile_rows, heap_val, heap_idx, floor, i == j)
+
+
+@njit(inline="always", cache=True)
+def product_tile(
+    normed: npt.NDArray[np.float32], tile_rows: int, i: int, j: int, buffers: npt.NDArray[np.float32]
+) -> npt.NDArray[np.float32]:
+    """Tile (i, j) of `V @ V.T`, one BLAS call, in the calling thread's own buffer: a new array a tile
+    would be mapped and unmapped every time (page faults, and the other core's TLB flushed)."""
+    vocab = normed.shape[0]
+    a0, a1 = i * tile_rows, min((i + 1) * tile_rows, vocab)
+    b0, b1 = j * tile_rows, min((j + 1) * tile_rows, vocab)
+    tile = buffers[get_thread_id()].reshape(-1)[: (a1 - a0) * (b1 - b0)].reshape((a1 - a0, b1 - b0))
+    np.dot(normed[a0:a1], normed[b0:b1].T, tile)
+    return tile  # type: ignore[no-any-return]  # numba-typed reshape
 
 
 @njit(parallel=True, cache=True)
