@@ -7,9 +7,10 @@ Two kinds of thing are kept, each in its own bounded table:
   spelling index. Working them out again gives the same values; keeping them only saves time.
 - *answers*, kept unless `keep_answers` is False: a known entry's candidates, what the bundle and
   the options alone decide of each (`Decided`), a known entry's whole expansion when nothing in the
-  query or the decisions can change it, and the whole answer to an entry typed alone. With
-  `keep_answers=False` every call works these out again: the reference the tests compare the
-  kept answers with, byte for byte.
+  query or the decisions can change it, the whole answer to an entry typed alone, and what each span
+  adds to an answer at each position (`widen.expansion.pieces`). With
+  `keep_answers=False` every call works these out again, and every answer as a whole: the
+  reference the tests compare the kept answers with, byte for byte.
 
 Each table's key is a tuple of what its values depend on, its type named below (`SpanKey`:
 entry, options, explain); options are hashable (`ExpansionOptions`), so equal options are one key
@@ -29,12 +30,13 @@ import numpy.typing as npt
 from widen.expansion.lexicon import EntryFacts, Lexicon
 from widen.expansion.options import ExpansionOptions
 from widen.expansion.result import Clause, ConceptClause, Dropped, Expansion, ModelInfo, Segment
-from widen.expansion.segment import Vocabulary
+from widen.expansion.segment import Span, Vocabulary
 from widen.expansion.spelling import Speller, no_correction
 
 if TYPE_CHECKING:
     from widen.expansion.candidates import Candidate
     from widen.expansion.filters import Decided
+    from widen.expansion.pieces import Piece
 
 __all__ = [
     "ExpansionCache",
@@ -46,6 +48,7 @@ __all__ = [
     "SidesKey",
     "SpanKey",
     "SpanOutcome",
+    "PieceKey",
 ]
 
 K = TypeVar("K", bound=Hashable)
@@ -70,6 +73,10 @@ AloneKey = tuple[str, ExpansionOptions]
 
 #: (pattern, the spelling typed, options)
 SidesKey = tuple[str, str, ExpansionOptions]
+
+
+#: (the span, its position in the query, options)
+PieceKey = tuple[Span, int, ExpansionOptions]
 
 
 #: (key, stop words, title share bar)
@@ -131,6 +138,7 @@ class ExpansionCache:
         self.spans: _Table[SpanKey, SpanOutcome] = _Table(2_000_000, keep_answers)
         self.alone: _Table[AloneKey, Answer] = _Table(2_000_000, keep_answers)
         self.sides: _Table[SidesKey, tuple[Expansion, ...]] = _Table(100_000, keep_answers)
+        self.pieces: _Table[PieceKey, Piece] = _Table(200_000, keep_answers)
         #: The bundle a result came from: one object per bundle (results are never changed in place).
         self.model_info = ModelInfo.model_construct(version=lexicon.version, created_at=lexicon.created_at)
         self._entries: _Table[EntryKey, EntryFacts] = _Table(1_000_000)
@@ -146,12 +154,13 @@ class ExpansionCache:
 
     def forget_answers(self) -> None:
         """Let go of every answer kept (the derived data stays): a worker's state before its first query."""
-        for table in (self.candidates, self.decided, self.spans, self.alone, self.sides):
+        for table in (self.candidates, self.decided, self.spans, self.alone, self.sides, self.pieces):
             table.clear()
 
     def answers(self) -> int:
         """How many answers are kept (all tables of answers together)."""
-        return len(self.candidates) + len(self.decided) + len(self.spans) + len(self.alone) + len(self.sides)
+        tables = (self.candidates, self.decided, self.spans, self.alone, self.sides, self.pieces)
+        return sum(len(table) for table in tables)
 
     def _derived(self, table: _Table[K, V], key: K, make: Callable[[], V]) -> V:
         found = table.get(key)

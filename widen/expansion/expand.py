@@ -28,11 +28,11 @@ import numpy as np
 from widen.decisions.decision import DecisionSet, PhraseDecisions
 from widen.expansion.cache import AloneKey, Answer, DecidedKey, ExpansionCache, SpanKey, SpanOutcome
 from widen.expansion.candidates import find_candidates, span_vector
-from widen.expansion.concept_clauses import concept_clauses, concept_text
 from widen.expansion.context import QueryContext, query_contexts
 from widen.expansion.filters import Situation, decide, sift
 from widen.expansion.lexicon import Lexicon
 from widen.expansion.options import ExpansionOptions
+from widen.expansion.pieces import finished, from_pieces
 from widen.expansion.query_text import JOBS, merged_text, render, segments_baseline, segments_words
 from widen.expansion.result import Clause, Dropped, Expansion, ExpansionResult, Segment
 from widen.expansion.segment import Span, segment_query
@@ -68,18 +68,26 @@ def expand(
             return _result(lexicon, cache, query, made)
     contexts = query_contexts(lexicon, spans)
     expanded: list[tuple[list[Expansion], list[Dropped]]] = []
+    # Each span's expansions as kept, while every span keeps them as they are (no correction, nothing
+    # to explain): then the answer is joined from the spans' pieces (`widen.expansion.pieces`).
+    own: list[tuple[Expansion, ...]] | None = [] if cache.keep_answers and not explain else None
     for span, context in zip(spans, contexts, strict=True):
         fix, refused = correction(span, decisions, options)
         if refused is not None:  # a blocked correction: the typed words stand alone
             expanded.append(([], [refused] if explain else []))
+            own = None
             continue
         outcome = _span_outcome(lexicon, cache, span, decisions, options, explain, context)
+        sides = pattern_spellings(cache, span, options)  # a pattern's; no job span has any
+        if own is not None:
+            own = [*own, outcome.kept or sides] if fix is None else None
         kept = corrected(fix, outcome.kept) if fix is not None else list(outcome.kept)
-        expanded.append((kept + pattern_spellings(cache, span, options), list(outcome.dropped)))
+        expanded.append((kept + list(sides), list(outcome.dropped)))
     blocked = frozenset().union(
         *(decisions.get(s.typed or phrase_of_key(s.key)).blocked for s in spans if s.kind in JOBS)
     )
-    answer = _answer(lexicon, spans, expanded, options, explain, blocked)
+    joined = None if own is None else from_pieces(lexicon, cache, spans, own, options, blocked)
+    answer = joined or _answer(lexicon, spans, expanded, options, explain, blocked)
     if alone is not None:
         cache.alone.keep(alone, answer)
     return _result(lexicon, cache, query, answer)
@@ -214,12 +222,7 @@ def _answer(
         )
     query_text = render(clauses, segments, options, lex.names)
     full = merged_text(segments_baseline(segments), query_text, words=segments_words(segments))
-    concepts = concept_clauses(lex, spans, clauses, blocked, options)
-    if not concepts:
-        return Answer(segments, clauses, query_text, full)
-    alone = concept_text(concepts, options)
-    # query_text: the concepts only rank what its required groups match; full_query: they also find.
-    return Answer(segments, clauses, f"{query_text} ({alone})", f"{full} OR ({alone})", tuple(concepts), alone)
+    return finished(lex, spans, segments, clauses, query_text, full, options, blocked)
 
 
 def _result(lex: Lexicon, cache: ExpansionCache, query: str, answer: Answer) -> ExpansionResult:

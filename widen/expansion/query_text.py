@@ -27,10 +27,13 @@ from widen.text.forms import key_of_phrase
 
 __all__ = [
     "render",
+    "group_text",
     "baseline_text",
     "words_text",
     "segments_baseline",
     "segments_words",
+    "baseline_term",
+    "words_terms",
     "merged_text",
     "BASELINE_BOOST",
     "WORDS_BOOST",
@@ -80,28 +83,34 @@ def render(
     names: Mapping[str, tuple[str, str]] | None = None,
 ) -> str:
     """The clauses as query text: each segment's clauses in one group; a job's group required."""
-    parts = []
     groups: dict[int, list[Clause]] = {}
     for c in clauses:
         groups.setdefault(c.segment, []).append(c)
-    for s, segment in enumerate(segments):
-        group = groups.get(s)
-        if not group:
-            continue
-        required = options.operator == "AND" and (segment.kind in JOBS or options.match == "all")
-        field = None
-        if segment.kind in _NAMED and options.places == "field" and segment.field:
-            field = _field_name(options.field_names.get(segment.field, segment.field))
-        terms = []
-        for c in group:
-            if field:
-                written = (names or {}).get(key_of_phrase(c.phrase), (segment.field, c.phrase))[1]
-                terms.append(f"{field}:{_quote(written)}^{_number(c.weight)}")
-            else:
-                terms.append(f"{_quote(c.phrase)}^{_number(c.weight)}")
-        text = terms[0] if len(terms) == 1 else "(" + " OR ".join(terms) + ")"
-        parts.append(("+" if required else "") + text)
-    return " ".join(parts)
+    return " ".join(
+        group_text(group, segment, options, names) for s, segment in enumerate(segments) if (group := groups.get(s))
+    )
+
+
+def group_text(
+    group: Sequence[Clause],
+    segment: Segment,
+    options: ExpansionOptions,
+    names: Mapping[str, tuple[str, str]] | None = None,
+) -> str:
+    """One segment's clauses (at least one) as its group of the query text."""
+    required = options.operator == "AND" and (segment.kind in JOBS or options.match == "all")
+    field = None
+    if segment.kind in _NAMED and options.places == "field" and segment.field:
+        field = _field_name(options.field_names.get(segment.field, segment.field))
+    terms = []
+    for c in group:
+        if field:
+            written = (names or {}).get(key_of_phrase(c.phrase), (segment.field, c.phrase))[1]
+            terms.append(f"{field}:{_quote(written)}^{_number(c.weight)}")
+        else:
+            terms.append(f"{_quote(c.phrase)}^{_number(c.weight)}")
+    text = terms[0] if len(terms) == 1 else "(" + " OR ".join(terms) + ")"
+    return ("+" if required else "") + text
 
 
 def baseline_text(result: ExpansionResult, operator: str = "AND") -> str:
@@ -112,7 +121,12 @@ def baseline_text(result: ExpansionResult, operator: str = "AND") -> str:
 
 def segments_baseline(segments: Sequence[Segment], operator: str = "AND") -> str:
     """`baseline_text` of a result's segments."""
-    return f" {operator} ".join(f"{_quote(s.text)}^1" for s in segments if s.text.strip())
+    return f" {operator} ".join(term for s in segments if (term := baseline_term(s.text)))
+
+
+def baseline_term(text: str) -> str:
+    """One segment's term of the baseline ("" for a segment of spaces alone)."""
+    return f"{_quote(text)}^1" if text.strip() else ""
 
 
 #: How much the seeker's words as optional terms weigh in the recommended merge: enough to bring in,
@@ -127,7 +141,12 @@ def words_text(result: ExpansionResult) -> str:
 
 def segments_words(segments: Sequence[Segment]) -> str:
     """`words_text` of a result's segments."""
-    return " ".join(_quote(w) for s in segments for w in s.text.split(" ") if w.strip())
+    return " ".join(terms for s in segments if (terms := words_terms(s.text)))
+
+
+def words_terms(text: str) -> str:
+    """One segment's words as optional terms ("" for none)."""
+    return " ".join(_quote(w) for w in text.split(" ") if w.strip())
 
 
 def merged_text(

@@ -19,7 +19,8 @@ from __future__ import annotations
 
 import re
 from collections.abc import Callable, Collection, Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+from itertools import pairwise
 from typing import NamedTuple
 
 from widen.text.forms import PHRASE_JOINER, words_in
@@ -63,6 +64,10 @@ class Vocabulary:
     compose_runs: int = 0
     # Words the dump's titles use: real words, however seldom, never corrected.
     title_words: frozenset[str] = frozenset()
+    # What segmentation worked out before, per word and per entry: each word as read (itself or its
+    # correction) and each key's span as typed (the same every time: worked out once each).
+    read_words: dict[str, str] = field(default_factory=dict, compare=False, repr=False)
+    key_spans: dict[str, Span] = field(default_factory=dict, compare=False, repr=False)
 
     def known(self, key: str) -> bool:
         return key in self.entries or key in self.names or key in self.spellings
@@ -136,13 +141,34 @@ def _classify(key: str, vocab: Vocabulary, parts: Sequence[str], typed: str) -> 
     return Span(key, "unknown", typed=typed)
 
 
+#: How many words and keys a vocabulary keeps what it worked out for (far more than a day's queries use).
+_KEPT = 200_000
+
+
 def _corrected(toks: list[str], vocab: Vocabulary) -> list[str]:
     """The tokens with every unknown word replaced by its spelling correction, where there is one."""
     out = []
+    read = vocab.read_words
     for tok in toks:
-        fixed = None if vocab.word_is_known(tok) else vocab.correct(tok)
-        out.append(fixed or tok)
+        fixed = read.get(tok)
+        if fixed is None:
+            fixed = (None if vocab.word_is_known(tok) else vocab.correct(tok)) or tok
+            if len(read) < _KEPT:
+                read[tok] = fixed
+        out.append(fixed)
     return out
+
+
+def _classified(key: str, vocab: Vocabulary, written: str) -> Span:
+    """`_classify` of a key read from its own words; as typed, the span is kept per key."""
+    if written:
+        return _classify(key, vocab, key.split(PHRASE_JOINER), written)
+    span = vocab.key_spans.get(key)
+    if span is None:
+        span = _classify(key, vocab, key.split(PHRASE_JOINER), "")
+        if len(vocab.key_spans) < _KEPT:
+            vocab.key_spans[key] = span
+    return span
 
 
 def _typed_words(original: list[str], keys: list[str]) -> list[str]:
@@ -158,6 +184,9 @@ def _typed_words(original: list[str], keys: list[str]) -> list[str]:
 def _runs_joined(spans: list[Span], vocab: Vocabulary) -> list[Span]:
     """Each run of two or more job spans (entries, not names, patterns or modifiers) that together are
     no known entry or title, as one composed span of their parts."""
+    jobs = [span.kind in ("phrase", "term") for span in spans]
+    if not any(a and b for a, b in pairwise(jobs)):  # most queries: no two job spans side by side
+        return spans
     out: list[Span] = []
     run: list[Span] = []
 
@@ -195,7 +224,7 @@ def segment_query(
     budget = max_tokens
     position = 0
     chunks: list[tuple[str, bool]] = []
-    for match in _QUOTED.finditer(query):
+    for match in _QUOTED.finditer(query) if '"' in query else ():
         chunks.append((query[position : match.start()], False))
         chunks.append((match.group(1), True))
         position = match.end()
@@ -216,7 +245,7 @@ def segment_query(
         found = []
         for key, typed in zip(keys, _typed_words(toks, keys), strict=True):
             written = typed if typed != key.replace(PHRASE_JOINER, " ") else ""
-            found.append(_classify(key, vocab, key.split(PHRASE_JOINER), written))
+            found.append(_classified(key, vocab, written))
         spans.extend(_runs_joined(found, vocab) if vocab.compose_runs else found)
         if budget <= 0:
             break

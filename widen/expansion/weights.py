@@ -97,10 +97,11 @@ def corrected(fix: Expansion, expansions: Sequence[Expansion]) -> list[Expansion
     return [fix] + [e.model_copy(update={"weight": round(max(e.weight * scale, 1e-4), 4)}) for e in expansions]
 
 
-def pattern_spellings(cache: ExpansionCache, span: Span, options: ExpansionOptions) -> list[Expansion]:
-    """A shift pattern's other spellings that the dump uses; nothing for other kinds."""
+def pattern_spellings(cache: ExpansionCache, span: Span, options: ExpansionOptions) -> tuple[Expansion, ...]:
+    """A shift pattern's other spellings that the dump uses, as kept (one tuple per pattern, spelling and
+    options); nothing for other kinds."""
     if span.kind != "pattern" or span.pattern is None:
-        return []
+        return ()
     own = phrase_of_key(span.key)
     key: SidesKey = (span.pattern, own, options)
     made = cache.sides.get(key)
@@ -114,7 +115,7 @@ def pattern_spellings(cache: ExpansionCache, span: Span, options: ExpansionOptio
                 for s in spellings
             ),
         )
-    return list(made)
+    return made
 
 
 def within_budget(
