@@ -30,10 +30,12 @@ def query_contexts(lex: Lexicon, spans: Sequence[Span]) -> list[QueryContext]:
     jobs = [p for p in spans if p.kind in JOBS]
     words = frozenset(w for p in jobs for w in p.key.split(PHRASE_JOINER))
     plain = QueryContext(words, False, None)
+    if len(jobs) < 2:  # most queries: one job span, so no head word beside another
+        return [plain] * len(spans)
+    job = [False, *(p.kind in JOBS for p in spans), False]  # job[s + 1]: whether span s is a job's
     out = []
     for s, span in enumerate(spans):
-        beside = [spans[n] for n in (s - 1, s + 1) if 0 <= n < len(spans)]
-        head = PHRASE_JOINER not in span.key and span.kind in JOBS and any(p.kind in JOBS for p in beside)
+        head = job[s + 1] and PHRASE_JOINER not in span.key and (job[s] or job[s + 2])
         if not head:
             out.append(plain)
             continue

@@ -86,12 +86,13 @@ class Vocabulary:
 
 def _greedy(entries: Sequence[str], known: Callable[[str], bool], max_words: int) -> list[str]:
     out: list[str] = []
+    counts = [words_in(entry) for entry in entries]
     i = 0
     while i < len(entries):
         best = i + 1
-        words = words_in(entries[i])
+        words = counts[i]
         for j in range(i + 2, len(entries) + 1):
-            words += words_in(entries[j - 1])
+            words += counts[j - 1]
             if words > max_words:
                 break
             if known(PHRASE_JOINER.join(entries[i:j])):
