@@ -113,8 +113,10 @@ def _replay_once(base: str, connections: int, threads: int, paths: Path, request
     return _summary(out)
 
 
-def _round(store: Path, env: dict[str, str], paths: Path, requests: int, first: str, seconds: int) -> dict[str, Any]:
-    with live_server(store, env) as server:
+def _round(
+    store: Path, env: dict[str, str], paths: Path, requests: int, first: str, seconds: int, cwd: Path | None = None
+) -> dict[str, Any]:
+    with live_server(store, env, cwd=cwd) as server:
         _healthz(server.base, 2, 32, 2)  # warm-up: imports, first requests, the threadpool
         got: dict[str, Any] = {}
         for side in (first, "replay" if first == "healthz" else "healthz"):

@@ -148,7 +148,7 @@ def _servers(sources: dict[str, Path], store: Path, rounds: int) -> dict[str, An
     for turn in range(rounds):
         for name, source in sources.items():
             print(f"server round {turn + 1}: {name}", file=sys.stderr, flush=True)
-            with live_server(store, {"PYTHONPATH": str(source), "WIDEN_CACHE_SIZE": "0"}) as server:
+            with live_server(store, {"PYTHONPATH": str(source), "WIDEN_CACHE_SIZE": "0"}, cwd=source) as server:
                 _wrk(f"{server.base}/healthz", 2)  # warm up
                 health, expand = _wrk(f"{server.base}/healthz", 6), _wrk(f"{server.base}{query}", 6)
             seen[name].append((health["rps"], expand["rps"], expand["p99_ms"]))

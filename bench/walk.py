@@ -27,7 +27,7 @@ from bench.common import ROOT, machine, widen_train
 from bench.scale import _data
 from bench.scale_parts import train_once
 from bench.traffic import _round, log_paths
-from bench.versus import _run
+from bench.versus import _env, _run
 from training.config import TrainConfig
 
 __all__ = ["main"]
@@ -40,7 +40,7 @@ def _board(name: str, data: Path, store: Path, sources: dict[str, Path], rounds:
         for version, source in sources.items():
             print(f"{name} round {turn + 1}: {version}", file=sys.stderr, flush=True)
             env = {"PYTHONPATH": str(source), "WIDEN_CACHE_SIZE": "0"}
-            got = _round(store, env, paths, requests, "healthz" if turn % 2 == 0 else "replay", 8)
+            got = _round(store, env, paths, requests, "healthz" if turn % 2 == 0 else "replay", 8, cwd=source)
             seen[version].append(got)
     result: dict[str, Any] = {"log": {"requests": requests, "distinct": distinct}}
     for version, runs in seen.items():
@@ -72,6 +72,10 @@ def main() -> None:
     if not before.is_dir():
         _run(["git", "worktree", "add", "--detach", str(before), commit])
     sources = {"before": before, "now": ROOT}
+    for source in sources.values():  # each server imports its own checkout's code (run in it, as `_round` runs it)
+        found = _run([sys.executable, "-c", "import widen; print(widen.__file__)"], _env(source), source).strip()
+        if not found.startswith(str(source) + "/"):
+            raise SystemExit(f"{source} imports widen from {found}")
     demo_store = out / "demo-store"
     if not (demo_store / "CURRENT").is_file():
         config = TrainConfig()

@@ -32,14 +32,20 @@ class LiveServer:
 
 @contextmanager
 def live_server(
-    store: Path | str, env: dict[str, str] | None = None, args: tuple[str, ...] = (), ready_within: float = 60
+    store: Path | str,
+    env: dict[str, str] | None = None,
+    args: tuple[str, ...] = (),
+    ready_within: float = 60,
+    cwd: Path | None = None,
 ) -> Iterator[LiveServer]:
     """Start `widen serve` on `store` (a folder or a store's URL), wait until /readyz answers 200 (at
-    most `ready_within` seconds), stop it with SIGINT after."""
+    most `ready_within` seconds), stop it with SIGINT after. `cwd`: the folder it runs in; `python -m`
+    imports from there first, ahead of PYTHONPATH, so a bench serving another checkout runs in it."""
     port = free_port()
     process = subprocess.Popen(
         [sys.executable, "-m", "widen.cli", "serve", "--store", str(store), "--port", str(port), *args],
         env={**os.environ, "WIDEN_ACCESS_LOG": "false", **(env or {})},
+        cwd=cwd,
         stdout=subprocess.PIPE,
         stderr=subprocess.PIPE,
         text=True,

@@ -3,19 +3,20 @@
 Two kinds of thing are kept, each in its own bounded table:
 
 - *derived data*, always kept: segmentation's vocabulary and the pattern spellings per set of
-  options, each entry's facts and duties neighbours, the different-jobs cosine per quantile, the
-  spelling index. Working them out again gives the same values; keeping them only saves time.
+  options, each entry's facts and duties neighbours, each title's words vector and whether it is a
+  typo of another, the different-jobs cosine per quantile, the spelling index. Working them out
+  again gives the same values; keeping them only saves time.
 - *answers*, kept unless `keep_answers` is False: a known entry's candidates, what the bundle and
-  the options alone decide of each (`Decided`), a known entry's whole expansion when nothing in the
-  query or the decisions can change it, the whole answer to an entry typed alone, and what each span
-  adds to an answer at each position (`widen.expansion.pieces`). With
+  the options alone decide of each (`Decided`), a known or composed span's whole expansion when
+  nothing in the query or the decisions can change it, the whole answer to an entry typed alone,
+  and what each span adds to an answer at each position (`widen.expansion.pieces`). With
   `keep_answers=False` every call works these out again, and every answer as a whole: the
   reference the tests compare the kept answers with, byte for byte.
 
-Each table's key is a tuple of what its values depend on, its type named below (`SpanKey`:
-entry, options, explain); options are hashable (`ExpansionOptions`), so equal options are one key
-whichever object holds them. Plain tuples, not named ones: one is made for most queries, and a
-plain tuple is the cheapest to make and hash. The cache belongs to one lexicon.
+Each table's key is a tuple of what its values depend on, its type named below (`SpanKey`: entry,
+parts, options, explain, the query's jobs); options are hashable (`ExpansionOptions`), so equal
+options are one key whichever object holds them. Plain tuples, not named ones: one is made for most
+queries, and a plain tuple is the cheapest to make and hash. The cache belongs to one lexicon.
 """
 
 from __future__ import annotations
@@ -32,6 +33,7 @@ from widen.expansion.options import ExpansionOptions
 from widen.expansion.result import Clause, ConceptClause, Dropped, Expansion, ModelInfo, Segment
 from widen.expansion.segment import Span, Vocabulary
 from widen.expansion.spelling import Speller, no_correction
+from widen.expansion.typos import mistyped
 
 if TYPE_CHECKING:
     from widen.expansion.candidates import Candidate
@@ -63,8 +65,9 @@ CandidatesKey = tuple[str, int]
 DecidedKey = tuple[str, ExpansionOptions]
 
 
-#: (the span's key, options, explain)
-SpanKey = tuple[str, ExpansionOptions, bool]
+#: (the span's key, the parts it is composed of (none for a known entry), options, explain, the query's
+#: job spans where its filters read them (`QueryContext.jobs`))
+SpanKey = tuple[str, tuple[str, ...], ExpansionOptions, bool, tuple[tuple[str, tuple[str, ...]], ...]]
 
 
 #: (the key typed alone, options)
@@ -148,6 +151,7 @@ class ExpansionCache:
         self._vocabulary_of: _Table[ExpansionOptions, Vocabulary] = _Table(1024)
         self._spellings: _Table[tuple[str, _VocabularyKey], tuple[str, ...]] = _Table(100_000)
         self._title_vectors: _Table[str, npt.NDArray[np.float32] | None] = _Table(2_000_000)
+        self._mistyped: _Table[tuple[str, tuple[str, ...]], bool] = _Table(2_000_000)
         self._speller: Speller | None = None
         self._word_speller: Speller | None = None
         self._lock = threading.Lock()
@@ -187,6 +191,14 @@ class ExpansionCache:
             found = self._title_vectors.keep(
                 key, np.asarray(self.lexicon.normed[j]) if j is not None else self.lexicon.words_vector(key)
             )
+        return found
+
+    def mistyped(self, key: str, noise: tuple[str, ...]) -> bool:
+        """Whether the title `key` is one an employer mistyped (`widen.expansion.typos.mistyped`, towards
+        the vocabulary's words), worked out once per title and noise words."""
+        found = self._mistyped.get((key, noise))
+        if found is None:
+            found = self._mistyped.keep((key, noise), mistyped(self.lexicon, key, noise, self.word_speller().near))
         return found
 
     def different_jobs_cosine(self, options: ExpansionOptions) -> float | None:

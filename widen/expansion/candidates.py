@@ -137,7 +137,7 @@ def _known_candidates(
                 io[n] = float(value)
     if vector is not None:
         for n, j in enumerate(entries):
-            if j < 0 and (other := lex.words_vector(keys[n])) is not None:
+            if j < 0 and (other := cache.title_vector(keys[n])) is not None:  # its words' vector, kept
                 sims[n] = float(other @ vector)
     mine = bool(duties)
     found = []

@@ -23,6 +23,9 @@ class QueryContext:
     words: frozenset[str]  # every word of the query's job spans
     head: bool  # a single word next to another job span: the head of a title split in two
     whole: npt.NDArray[np.float32] | None  # the job spans' composed vector, for a head word
+    # For a head word, the query's job spans (key and parts), which `words` and `whole` are made of:
+    # what its filters read of the query. Empty for any other span, whose filters read none of it.
+    jobs: tuple[tuple[str, tuple[str, ...]], ...] = ()
 
 
 def query_contexts(lex: Lexicon, spans: Sequence[Span]) -> list[QueryContext]:
@@ -44,5 +47,5 @@ def query_contexts(lex: Lexicon, spans: Sequence[Span]) -> list[QueryContext]:
         if len(known) > 1:
             mean = np.asarray(lex.normed[known]).mean(axis=0)
             whole = (mean / (np.linalg.norm(mean) or 1.0)).astype(np.float32)
-        out.append(QueryContext(words, True, whole))
+        out.append(QueryContext(words, True, whole, tuple((p.key, p.parts) for p in jobs)))
     return out

@@ -102,15 +102,17 @@ def _span_outcome(
     explain: bool,
     context: QueryContext,
 ) -> SpanOutcome:
-    """A job span's candidates, filtered and weighed (its correction aside). A known entry that no
-    reviewer decided anything for, and whose neighbours in the query do not change its filters (it is
-    no head word beside another job), expands the same way in every query: kept once (`cache.spans`)."""
+    """A job span's candidates, filtered and weighed (its correction aside). A known entry, or a span
+    composed of known parts, that no reviewer decided anything for expands the same way in every query
+    but for what its filters read of the query around it: nothing, unless it is a head word beside
+    another job, and then the query's job spans (`QueryContext.jobs`). Kept once per span and those
+    (`cache.spans`)."""
     if span.kind not in JOBS or (span.kind == "unknown" and not span.parts):
         return _NOTHING
     said = decisions.get(span.typed or phrase_of_key(span.key))
-    if span.parts or context.head or said.blocked or said.pinned or said.exempt:
+    if said.blocked or said.pinned or said.exempt:
         return _work_out(lex, cache, span, said, options, explain, context)
-    key: SpanKey = (span.key, options, explain)
+    key: SpanKey = (span.key, span.parts, options, explain, context.jobs)
     known = cache.spans.get(key)
     if known is None:
         known = cache.spans.keep(key, _work_out(lex, cache, span, said, options, explain, context))

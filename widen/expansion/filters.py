@@ -20,7 +20,6 @@ from widen.expansion.context import QueryContext
 from widen.expansion.lexicon import EntryFacts, Lexicon, head_of
 from widen.expansion.options import ExpansionOptions
 from widen.expansion.result import DropReason
-from widen.expansion.typos import mistyped
 from widen.text.forms import spelling_key
 
 __all__ = ["FILTERS", "Filter", "Decided", "Ground", "Situation", "QueryContext", "decide", "sift"]
@@ -42,11 +41,11 @@ class Ground:
     own_postings: int  # how many postings name the span as their title (0: no title with a profile)
     own_head: str  # the word of the span's title that names the job
     correct: Callable[[str], str | None]  # spelling correction towards the vocabulary's words
-    near: Callable[[str], str | None]  # the vocabulary's word one slip away
+    typo: Callable[[str], bool]  # a title an employer mistyped (`ExpansionCache.mistyped`: kept per title)
 
     def misspelled(self, key: str) -> bool:
         """A title an employer mistyped (`widen.expansion.typos.mistyped`)."""
-        return mistyped(self.lexicon, key, self.options.noise_words, self.near)
+        return self.typo(key)
 
     def same_job(self, c: Candidate) -> float:
         """The duties cosine one job reaches with itself at the sizes of the span's and `c`'s profiles."""
@@ -219,7 +218,7 @@ def ground(
         own_postings,
         head_of(text),
         cache.word_speller().correct,
-        cache.word_speller().near,
+        lambda key: cache.mistyped(key, options.noise_words),
     )
 
 

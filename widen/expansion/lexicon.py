@@ -8,6 +8,7 @@ entry, per set of options) is kept by `widen.expansion.cache.ExpansionCache`, no
 from __future__ import annotations
 
 import re
+from bisect import bisect_right
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -21,6 +22,13 @@ from widen.text.forms import PHRASE_JOINER, key_of_phrase, phrase_of_key, phrase
 from widen.text.tokenize import is_number
 
 __all__ = ["Lexicon", "EntryFacts", "head_of"]
+
+
+def _rising(sizes: list[int]) -> list[int]:
+    """The profile sizes a bundle measured at, which rise (`training.duties`): looked up by bisection."""
+    if list(sizes) != sorted(sizes):
+        raise ValueError(f"the bundle's profile sizes do not rise: {sizes}")
+    return sizes
 
 _NUMBER = re.compile(r"^[\d.,/:%+#-]+(?:st|nd|rd|th|k|hr|pm|am)?$")
 #: Words after which a title says what the job is about, not what it is ("manager in hardware").
@@ -106,7 +114,7 @@ class Lexicon:
         #: For each entry, whether it has a duties profile (a plain list: one lookup per candidate).
         self.with_duties: list[bool] = [k in self.title_row for k in self.keys]
         duties = bundle.manifest.duties
-        self._sizes = duties.sizes
+        self._sizes = _rising(duties.sizes)
         self._same_job = duties.same_job
         self._chance = duties.chance
         #: The concepts postings are tagged with, and the recipe of their vectors (None without concepts).
@@ -159,8 +167,9 @@ class Lexicon:
         size measured; None where the bundle measured none."""
         if not table or not self._sizes or a < 1 or b < 1:
             return None
-        i = max(n for n, size in enumerate(self._sizes) if size <= a or n == 0)
-        j = max(n for n, size in enumerate(self._sizes) if size <= b or n == 0)
+        # The last size measured at or below each (the first where none is): sizes rise (`training.duties`).
+        i = max(bisect_right(self._sizes, a) - 1, 0)
+        j = max(bisect_right(self._sizes, b) - 1, 0)
         found = table[i][j]
         if found is None:  # not enough titles that deep: the largest measured size below
             for n in range(min(i, j), -1, -1):
