@@ -30,6 +30,7 @@ def _rising(sizes: list[int]) -> list[int]:
         raise ValueError(f"the bundle's profile sizes do not rise: {sizes}")
     return sizes
 
+
 _NUMBER = re.compile(r"^[\d.,/:%+#-]+(?:st|nd|rd|th|k|hr|pm|am)?$")
 #: Words after which a title says what the job is about, not what it is ("manager in hardware").
 _ABOUT = frozenset({"in", "of", "for", "at", "on", "with", "from", "by", "to"})
