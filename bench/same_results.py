@@ -22,7 +22,7 @@ from pathlib import Path
 from typing import Any
 
 from bench.common import ROOT, machine
-from bench.versus import _env, _run, _train
+from bench.versus import _env, _train, checkout
 from demo_postings.generate import generate
 
 __all__ = ["main"]
@@ -83,11 +83,7 @@ def main() -> None:
     parser.add_argument("--postings", type=int, default=20000)
     args = parser.parse_args()
     out = args.out.resolve()
-    out.mkdir(parents=True, exist_ok=True)
-    commit = _run(["git", "rev-parse", args.before]).strip()
-    before = out / f"before-{commit[:10]}"
-    if not before.is_dir():
-        _run(["git", "worktree", "add", "--detach", str(before), commit])
+    commit, before = checkout(args.before, out)
     report: dict[str, Any] = {"machine": machine(), "date": time.strftime("%Y-%m-%d"), "before": commit, "boards": {}}
     for board in ("tollbridge", "oxmere"):
         data, store = out / board / "data", out / board / "store"

@@ -24,7 +24,7 @@ from typing import Any
 
 from bench.common import ROOT, machine
 
-__all__ = ["main"]
+__all__ = ["main", "checkout"]
 
 #: Run inside each version's interpreter: load the bundle, warm up, time every query.
 _TIMER = r"""
@@ -105,6 +105,21 @@ def _run(args: list[str], env: dict[str, str] | None = None, cwd: Path = ROOT) -
     return done.stdout
 
 
+def checkout(before: str, out: Path) -> tuple[str, Path]:
+    """The commit `before` names, checked out as a git worktree under `out` (made once): its full hash
+    and folder. Code run in that folder with it on PYTHONPATH (`_env`) imports that commit's widen,
+    checked here, since `python -m` and `-c` import from the working folder first."""
+    out.mkdir(parents=True, exist_ok=True)
+    commit = _run(["git", "rev-parse", before]).strip()
+    folder = out / f"before-{commit[:10]}"
+    if not folder.is_dir():
+        _run(["git", "worktree", "add", "--detach", str(folder), commit])
+    found = _run([sys.executable, "-c", "import widen; print(widen.__file__)"], _env(folder), folder).strip()
+    if not found.startswith(str(folder) + "/"):
+        raise SystemExit(f"{folder} imports widen from {found}")
+    return commit, folder
+
+
 def _env(source: Path) -> dict[str, str]:
     return {**os.environ, "PYTHONPATH": str(source)}
 
@@ -173,11 +188,7 @@ def main() -> None:
     parser.add_argument("--no-server", action="store_true", help="only the in-process timings")
     args = parser.parse_args()
     out = args.out.resolve()
-    out.mkdir(parents=True, exist_ok=True)
-    commit = _run(["git", "rev-parse", args.before]).strip()
-    before = out / f"before-{commit[:10]}"
-    if not before.is_dir():
-        _run(["git", "worktree", "add", "--detach", str(before), commit])
+    commit, before = checkout(args.before, out)
     sources = {"before": before, "now": ROOT}
     # One bundle for both, trained by the earlier commit, so the two time the same expansions (a
     # second training run would differ in its vectors: skip-gram with two threads is not repeatable).

@@ -27,7 +27,7 @@ from bench.common import ROOT, machine, widen_train
 from bench.scale import _data
 from bench.scale_parts import train_once
 from bench.traffic import _round, log_paths
-from bench.versus import _env, _run
+from bench.versus import checkout
 from training.config import TrainConfig
 
 __all__ = ["main"]
@@ -66,16 +66,8 @@ def main() -> None:
     parser.add_argument("--rounds", type=int, default=3)
     args = parser.parse_args()
     out = args.out.resolve()
-    out.mkdir(parents=True, exist_ok=True)
-    commit = _run(["git", "rev-parse", args.before]).strip()
-    before = out / f"before-{commit[:10]}"
-    if not before.is_dir():
-        _run(["git", "worktree", "add", "--detach", str(before), commit])
-    sources = {"before": before, "now": ROOT}
-    for source in sources.values():  # each server imports its own checkout's code (run in it, as `_round` runs it)
-        found = _run([sys.executable, "-c", "import widen; print(widen.__file__)"], _env(source), source).strip()
-        if not found.startswith(str(source) + "/"):
-            raise SystemExit(f"{source} imports widen from {found}")
+    commit, before = checkout(args.before, out)
+    sources = {"before": before, "now": ROOT}  # each server runs in its checkout (`_round`'s cwd)
     demo_store = out / "demo-store"
     if not (demo_store / "CURRENT").is_file():
         config = TrainConfig()
