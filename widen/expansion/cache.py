@@ -6,8 +6,10 @@ Two kinds of thing are kept, each in its own bounded table:
   options, each entry's facts and duties neighbours, each title's words vector and whether it is a
   typo of another, the different-jobs cosine per quantile, the spelling index. Working them out
   again gives the same values; keeping them only saves time.
-- *answers*, kept unless `keep_answers` is False: a known entry's candidates, what the bundle and
-  the options alone decide of each (`Decided`), a known or composed span's whole expansion when
+- *answers*, kept unless `keep_answers` is False: a known entry's candidates and what the bundle
+  and the options alone decide of each (`Decided`), while the entry may be worked out again (a head
+  word, a reason asked for; `let_go` otherwise: tens of objects an entry that the garbage
+  collector would walk on every full pass), a known or composed span's whole expansion when
   nothing in the query or the decisions can change it, the whole answer to an entry typed alone,
   and what each span adds to an answer at each position (`widen.expansion.pieces`). With
   `keep_answers=False` every call works these out again, and every answer as a whole: the
@@ -161,6 +163,11 @@ class ExpansionCache:
         for table in (self.candidates, self.decided, self.spans, self.alone, self.sides, self.pieces):
             table.clear()
 
+    def let_go(self, key: str, options: ExpansionOptions) -> None:
+        """Let go of an entry's candidates and what the filters decided of them (its outcome stays)."""
+        self.candidates.drop((key, options.candidates))
+        self.decided.drop((key, options))
+
     def answers(self) -> int:
         """How many answers are kept (all tables of answers together)."""
         tables = (self.candidates, self.decided, self.spans, self.alone, self.sides, self.pieces)
@@ -175,9 +182,10 @@ class ExpansionCache:
     # -- derived data, always kept ---------------------------------------------------------------
 
     def entry(self, key: str, stop: frozenset[str], title_share: float) -> EntryFacts:
-        return self._derived(
-            self._entries, (key, stop, title_share), lambda: self.lexicon.entry_facts(key, stop, title_share)
-        )
+        found = self._entries.get((key, stop, title_share))  # no `_derived`: called for every candidate
+        if found is None:
+            found = self._entries.keep((key, stop, title_share), self.lexicon.entry_facts(key, stop, title_share))
+        return found
 
     def duty_neighbours(self, key: str) -> dict[str, float]:
         """The titles whose duties are most alike those of title `key` (callers must not change the dict)."""

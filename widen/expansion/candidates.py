@@ -15,6 +15,7 @@ titles' duties profiles where both have one.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 import numpy.typing as npt
@@ -29,8 +30,9 @@ from widen.text.forms import phrase_of_key
 __all__ = ["Candidate", "Found", "find_candidates", "relation_of", "span_vector"]
 
 
-@dataclass(frozen=True)
-class Candidate:
+class Candidate(NamedTuple):
+    """One neighbour of a span, and what the filters and the relation hint read of it."""
+
     key: str
     entry: int  # its vocabulary row; -1 for a title seen too seldom to have a vector
     similarity: float  # cosine of the input vectors (a title without one: the mean of its known words')
@@ -149,13 +151,15 @@ def _known_candidates(
     return tuple(found)
 
 
-def relation_of(c: Candidate, lex: Lexicon, options: ExpansionOptions, own_postings: int) -> str:
+def relation_of(
+    c: Candidate, lex: Lexicon, options: ExpansionOptions, own_postings: int, same: float | None = None
+) -> str:
     """The relation hint: `equivalent` (likely the same job) or `related` (close, a different job).
     Two titles with profiles are equivalent when their duties are at least `equivalent_duties` of the
     cosine two profiles of one job reach in this bundle at their sizes; otherwise the dual embedding
-    space decides."""
+    space decides. `same`: `Lexicon.same_job` at these sizes, where the caller has it."""
     if c.duties is not None and lex.split_half is not None:
-        same = lex.same_job(own_postings, c.postings)
+        same = lex.same_job(own_postings, c.postings) if same is None else same
         return "equivalent" if c.duties >= options.equivalent_duties * same else "related"
     if c.similarity >= options.equivalent_similarity and c.in_out_similarity >= options.equivalent_in_out:
         return "equivalent"

@@ -116,6 +116,10 @@ def _span_outcome(
     known = cache.spans.get(key)
     if known is None:
         known = cache.spans.keep(key, _work_out(lex, cache, span, said, options, explain, context))
+        if not context.head and not explain:
+            # Alike in every query: the outcome kept is all a query asks again, so its candidates and
+            # filters are let go (tens of objects each that the collector would walk; prepare does so too).
+            cache.let_go(span.key, options)
     return known
 
 
@@ -277,6 +281,5 @@ def prepare(lex: Lexicon, cache: ExpansionCache, options: ExpansionOptions, limi
         _span_outcome(lex, cache, span, none, options, False, alone)
         # And the whole answer to the entry typed alone, where it segments as itself.
         expand(lex, none, phrase_of_key(key), options, cache=cache)
-        cache.candidates.drop((key, options.candidates))
-        cache.decided.drop((key, options))
+        cache.let_go(key, options)
     return len(keys)

@@ -12,49 +12,18 @@ from __future__ import annotations
 
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
+from typing import NamedTuple
 
 from widen.decisions.decision import PhraseDecisions
 from widen.expansion.cache import ExpansionCache
 from widen.expansion.candidates import Candidate, relation_of
 from widen.expansion.context import QueryContext
-from widen.expansion.lexicon import EntryFacts, Lexicon, head_of
+from widen.expansion.ground import Ground, ground
+from widen.expansion.lexicon import EntryFacts, Lexicon
 from widen.expansion.options import ExpansionOptions
 from widen.expansion.result import DropReason
-from widen.text.forms import spelling_key
 
 __all__ = ["FILTERS", "Filter", "Decided", "Ground", "Situation", "QueryContext", "decide", "sift"]
-
-
-@dataclass(frozen=True)
-class Ground:
-    """What the fixed filters read of the span itself, the bundle and the options."""
-
-    lexicon: Lexicon
-    options: ExpansionOptions
-    own_words: frozenset[str]
-    own_core: frozenset[str]  # its words less modifiers and pattern words
-    own_spelling: str
-    modifiers: frozenset[str]
-    apart: float  # input cosine two different jobs reach in this bundle (no duties profile)
-    titled: bool  # the bundle has duties profiles
-    own_share: float
-    own_postings: int  # how many postings name the span as their title (0: no title with a profile)
-    own_head: str  # the word of the span's title that names the job
-    correct: Callable[[str], str | None]  # spelling correction towards the vocabulary's words
-    typo: Callable[[str], bool]  # a title an employer mistyped (`ExpansionCache.mistyped`: kept per title)
-
-    def misspelled(self, key: str) -> bool:
-        """A title an employer mistyped (`widen.expansion.typos.mistyped`)."""
-        return self.typo(key)
-
-    def same_job(self, c: Candidate) -> float:
-        """The duties cosine one job reaches with itself at the sizes of the span's and `c`'s profiles."""
-        return self.lexicon.same_job(self.own_postings, c.postings)
-
-    def by_chance(self, c: Candidate) -> float:
-        """The duties cosine two different jobs stay under (at `chance_duties`) at these sizes."""
-        quantile = self.options.chance_duties
-        return 0.0 if quantile == "off" else self.lexicon.chance(self.own_postings, c.postings, quantile)
 
 
 @dataclass
@@ -162,11 +131,11 @@ def _runs(filters: Sequence[Filter]) -> tuple[tuple[Filter, ...] | Filter, ...]:
 
 
 _RUNS = _runs(FILTERS)
-_FIXED_RUNS = tuple(r for r in _RUNS if isinstance(r, tuple))
+#: Each fixed run as its tests and reasons, as `decide` reads them.
+_FIXED_RUNS = tuple(tuple((f.fixed, f.reason) for f in r if f.fixed is not None) for r in _RUNS if isinstance(r, tuple))
 
 
-@dataclass(frozen=True)
-class Decided:
+class Decided(NamedTuple):
     """What the fixed filters decide of one candidate: its facts, its relation hint, per fixed run the
     first reason that holds (None: none does), and the first of those (`first`)."""
 
@@ -192,34 +161,17 @@ def _other_kind(own: frozenset[str], other: frozenset[str], own_head: str, other
     return bool(a - b) and bool(b - a) and len(a & b) >= 2
 
 
-def _first_that_holds(run: tuple[Filter, ...], c: Candidate, e: EntryFacts, g: Ground) -> DropReason | None:
-    for f in run:
-        if f.fixed is not None and f.fixed(c, e, g):
-            return f.reason
-    return None
-
-
-def ground(
-    lex: Lexicon, cache: ExpansionCache, text: str, own_share: float, own_postings: int, options: ExpansionOptions
-) -> Ground:
-    stop = frozenset(options.noise_words)
-    modifiers = frozenset(options.modifiers) | options.pattern_words()
-    own_words = frozenset(text.split(" ")) - stop
-    return Ground(
-        lex,
-        options,
-        own_words,
-        own_words - modifiers,
-        spelling_key(text, stop),
-        modifiers,
-        cache.different_jobs_cosine(options) or 0.0,
-        lex.split_half is not None,
-        own_share,
-        own_postings,
-        head_of(text),
-        cache.word_speller().correct,
-        lambda key: cache.mistyped(key, options.noise_words),
-    )
+def _fixed_reasons(c: Candidate, e: EntryFacts, g: Ground) -> tuple[DropReason | None, ...]:
+    """Per fixed run, the first reason that holds for one candidate (None: none does)."""
+    reasons: list[DropReason | None] = []
+    for run in _FIXED_RUNS:
+        for test, reason in run:
+            if test(c, e, g):
+                reasons.append(reason)
+                break
+        else:
+            reasons.append(None)
+    return tuple(reasons)
 
 
 def decide(
@@ -235,11 +187,12 @@ def decide(
     g = ground(lex, cache, text, own_share, own_postings, options)
     stop = frozenset(options.noise_words)
     out = []
+    entry, share = cache.entry, options.title_share
     for c in found:
-        e = cache.entry(c.key, stop, options.title_share)
-        reasons = tuple(_first_that_holds(run, c, e, g) for run in _FIXED_RUNS)
+        e = entry(c.key, stop, share)
+        reasons = _fixed_reasons(c, e, g)
         first = next((r for r in reasons if r is not None), None)
-        relation = relation_of(c, lex, options, own_postings)
+        relation = relation_of(c, lex, options, own_postings, g.same_job(c) if c.duties is not None else None)
         if relation == "equivalent" and _other_kind(g.own_core, e.content - g.modifiers, g.own_head, e.head):
             relation = "related"
         out.append(Decided(e, relation, reasons, first))
