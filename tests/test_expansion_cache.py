@@ -51,7 +51,8 @@ def test_what_is_worked_out_once_never_changes_a_result(trained_store: Path, dem
     reference = fast.reference()
     queries += [phrase_of_key(key) for key in fast.lexicon.keys[::25]]  # typed alone: answered whole from `prepare`
     base = fast.options
-    assert prepare(fast.lexicon, fast.cache, base) == len(fast.lexicon.keys)  # as the service does before serving
+    # As the service does before serving: every entry and every title (those with no vector too).
+    assert prepare(fast.lexicon, fast.cache, base) == len(set(fast.lexicon.keys) | set(fast.lexicon.titles))
     option_sets = [
         base,
         base.with_request(min_similarity=0.8),

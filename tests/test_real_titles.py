@@ -17,7 +17,7 @@ from training.config import load_config
 from widen.cli import main
 from widen.evaluation.runs import read_queries
 from widen.evaluation.scorecard import query_scorecard
-from widen.text.forms import PHRASE_JOINER, phrase_of_key
+from widen.text.forms import PHRASE_JOINER, phrase_of_key, phrase_of_text
 
 
 @pytest.fixture(scope="module")
@@ -161,6 +161,25 @@ def test_a_concepts_label_names_real_titles_of_its_postings(fellhaven: tuple[Pat
     assert len(checked) > 50 and len(named) / len(checked) >= 0.8, (len(named), len(checked))
 
 
+def test_a_server_prepares_the_titles_seekers_type_first(fellhaven: tuple[Path, Opened]) -> None:
+    """`Lexicon.busiest`, what a server prepares first: every title with a duties profile, busiest first,
+    then the other entries by use, each once. On a board of real titles, the first hundred are titles
+    of the ESCO classification the board was made of (its labels, source: demo_postings/data), where
+    the entries by use alone begin with the words of any posting."""
+    _, opened = fellhaven
+    lex = opened.lexicon
+    order = lex.busiest()
+    assert len(order) == len(set(order)) == len(set(lex.keys) | set(lex.titles))
+    titled = order[: len(lex.titles)]
+    assert set(titled) == set(lex.titles)
+    assert [lex.postings_of(k) for k in titled] == sorted((lex.postings_of(k) for k in titled), reverse=True)
+    labels = {phrase_of_text(name) for job in occupations() for name in job.names}
+    first = [phrase_of_key(k) for k in order[:100]]
+    assert sum(p in labels for p in first) >= 90, [p for p in first if p not in labels][:10]
+    by_use = [phrase_of_key(lex.keys[j]) for j in sorted(range(len(lex.keys)), key=lambda j: -lex.counts[j])[:100]]
+    assert sum(p in labels for p in by_use) < 50
+
+
 def test_kept_answers_equal_the_reference_on_the_real_title_log(fellhaven_store: tuple[Path, Path]) -> None:
     """The day's log of a board of real titles (the ESCO occupations) reaches what a demo log seldom
     does: long titles composed of known parts, head words beside another job, titles with no vector.
@@ -181,6 +200,12 @@ def test_kept_answers_equal_the_reference_on_the_real_title_log(fellhaven_store:
                 got = fast.expand(q, fast.options, explain=explain).model_dump_json()
                 assert got == reference.expand(q, fast.options, explain=explain).model_dump_json(), q
     kept = list(fast.cache.spans)
+    # The third prepared is titles (`Lexicon.busiest`), some with no vector; others were worked out on
+    # first use: both ways were compared.
+    lex = fast.lexicon
+    prepared = set(lex.busiest()[: len(lex.keys) // 3])
+    assert any(k not in lex.index for k in prepared)
+    assert any(key not in prepared and key in lex.title_row for key, parts, *_ in kept if not parts)
     assert any(parts for _, parts, *_ in kept), "no composed span was kept: the log did not test them"
     assert any(jobs for *_, jobs in kept), "no head word was kept by its query's jobs: the log did not test them"
     assert len(fast.cache.pieces) > 100

@@ -23,8 +23,6 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
-import numpy as np
-
 from widen.decisions.decision import DecisionSet, PhraseDecisions
 from widen.expansion.cache import AloneKey, Answer, DecidedKey, ExpansionCache, SpanKey, SpanOutcome
 from widen.expansion.candidates import find_candidates, span_vector
@@ -264,18 +262,15 @@ def _alone(
 
 
 def prepare(lex: Lexicon, cache: ExpansionCache, options: ExpansionOptions, limit: int | None = None) -> int:
-    """Work out, for the entries of the bundle, how each expands on its own under `options` with no
-    reviewer decision for it (what most spans of most queries are), so that no query pays for that
-    the first time: the long tail of a day's queries is mostly first times. Only that outcome is kept
-    (a few expansions an entry), with the whole answer to the entry typed alone; the candidates and
-    filters it came from are let go again. With `limit`, only the `limit` entries the most postings
-    use (ties in the bundle's order); the others are worked out on first use, to the same answers.
-    Returns the number of entries prepared."""
+    """Work out, for the entries and titles of the bundle, how each expands on its own under `options`
+    with no reviewer decision for it (what most spans of most queries are), so that no query pays for
+    that the first time: the long tail of a day's queries is mostly first times. Only that outcome is
+    kept (a few expansions an entry), with the whole answer to the entry typed alone; the candidates
+    and filters it came from are let go again. With `limit`, only the first `limit` of
+    `Lexicon.busiest`; the others are worked out on first use, to the same answers. Returns the number
+    prepared."""
     none, alone = DecisionSet(), QueryContext(frozenset(), False, None)
-    keys = lex.keys
-    if limit is not None and limit < len(keys):
-        busiest = np.argsort(-lex.counts, kind="stable")[:limit]
-        keys = [lex.keys[int(j)] for j in busiest]
+    keys = lex.busiest()[:limit]
     for key in keys:
         span = Span(key, "phrase" if PHRASE_JOINER in key else "term")
         _span_outcome(lex, cache, span, none, options, False, alone)

@@ -143,6 +143,18 @@ class Lexicon:
     def has_duties(self, j: int) -> bool:
         return self.with_duties[j]
 
+    def busiest(self) -> list[str]:
+        """Every entry and title, in the order a server prepares them (`widen.expansion.expand.prepare`):
+        the titles with a duties profile, those the most postings name first (what seekers type: most
+        of them are seen too seldom to have a vector of their own), then the other entries, those the
+        most postings use first; ties in the bundle's order. Chosen on the 200,000-posting real-title
+        board's day over the entries by use alone (`docs/benchmarks.md`)."""
+        rows = sorted(range(len(self.titles)), key=lambda r: -self.title_postings[r])
+        order = [self.titles[r] for r in rows]
+        taken = set(order)
+        order += [k for k in (self.keys[int(j)] for j in np.argsort(-self.counts, kind="stable")) if k not in taken]
+        return order
+
     def words_vector(self, key: str) -> npt.NDArray[np.float32] | None:
         """The normalised mean of the input vectors of a key's known words; None when it knows none."""
         rows = [self.index[w] for w in key.split(PHRASE_JOINER) if w in self.index]
