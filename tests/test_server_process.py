@@ -2,12 +2,15 @@
 
 from __future__ import annotations
 
+import gc
 import shutil
 import time
+import weakref
 from pathlib import Path
 from typing import Any
 
 import httpx
+import pytest
 
 from tests.live_server import live_server
 
@@ -132,3 +135,42 @@ def test_workers_fork_from_a_parent_that_loaded_the_bundle_and_each_swaps_and_co
             info = [s for s in samples if s.name == "widen_model_info"]
             assert {s.labels["version"]: s.value for s in info if s.value > 0} == {other: 2}  # both workers
             assert [s.value for s in samples if s.name == "widen_ready"] == [1]
+
+
+def test_a_served_bundle_is_out_of_the_collectors_reach_and_freed_without_it_when_replaced(
+    store_copy: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """A loaded bundle's prepared answers are frozen (`gc.freeze`: no full collection walks them), and a
+    replaced one is freed by reference counting alone, before the collection that follows a swap: so
+    nothing a bundle and its cache hold may refer back to them (a speller's bound method in the
+    cache's own vocabulary once did, and a night's swap would have left every answer to the
+    collector). Python's gc documentation: frozen objects are left out of `gc.get_objects()`'s
+    generations, and only cycles need the collector."""
+    from service import state as state_module
+    from service.settings import Settings
+    from service.state import ServiceState
+    from tests.helpers import republish
+    from widen.decisions.decision import DecisionSet
+    from widen.expansion.expand import expand
+
+    state = ServiceState(Settings(store=store_copy, access_log=False))
+    try:
+        assert state.check() == "loaded"
+        first = state.serving
+        assert first is not None
+        for q in ["lorry driver", "nurze", "kitchen porter hensby", '"staff nurse" nights', "chef chef"]:
+            expand(first.lexicon, DecisionSet(), q, first.options, cache=first.cache, explain=q == "nurze")
+        prepared = list(first.cache.alone.values())[:50]
+        young = {id(o) for o in gc.get_objects()}
+        assert prepared and not any(id(answer) in young for answer in prepared)
+        lexicon, cache = weakref.ref(first.lexicon), weakref.ref(first.cache)
+        del first, prepared, young
+        freed: list[bool] = []
+        monkeypatch.setattr(state_module, "_out_of_collection", lambda: freed.append(lexicon() is None))
+        republish(store_copy)
+        gc.disable()
+        assert state.check() == "loaded"
+        assert freed == [True] and cache() is None
+    finally:
+        gc.enable()
+        gc.unfreeze()

@@ -34,7 +34,7 @@ from widen.expansion.lexicon import EntryFacts, Lexicon
 from widen.expansion.options import ExpansionOptions
 from widen.expansion.result import Clause, ConceptClause, Dropped, Expansion, ModelInfo, Segment
 from widen.expansion.segment import Span, Vocabulary
-from widen.expansion.spelling import Speller, no_correction
+from widen.expansion.spelling import LazySpeller, Speller, no_correction
 from widen.expansion.typos import mistyped
 
 if TYPE_CHECKING:
@@ -154,8 +154,8 @@ class ExpansionCache:
         self._spellings: _Table[tuple[str, _VocabularyKey], tuple[str, ...]] = _Table(100_000)
         self._title_vectors: _Table[str, npt.NDArray[np.float32] | None] = _Table(2_000_000)
         self._mistyped: _Table[tuple[str, tuple[str, ...]], bool] = _Table(2_000_000)
-        self._speller: Speller | None = None
-        self._word_speller: Speller | None = None
+        self._speller = LazySpeller(lexicon)
+        self._word_speller = LazySpeller(lexicon, titles=False)
         self._lock = threading.Lock()
 
     def forget_answers(self) -> None:
@@ -218,22 +218,11 @@ class ExpansionCache:
         return self._apart[key]
 
     def speller(self) -> Speller:
-        if self._speller is None:
-            with self._lock:
-                if self._speller is None:
-                    self._speller = Speller(self.lexicon)
-        return self._speller
-
-    def _correct(self, word: str) -> str | None:
-        return self.speller().correct(word)
+        return self._speller.get()
 
     def word_speller(self) -> Speller:
         """A speller towards the vocabulary's words alone (no title words: a title's typo is not one)."""
-        if self._word_speller is None:
-            with self._lock:
-                if self._word_speller is None:
-                    self._word_speller = Speller(self.lexicon, titles=False)
-        return self._word_speller
+        return self._word_speller.get()
 
     @staticmethod
     def _marker(options: ExpansionOptions) -> _VocabularyKey:
@@ -266,7 +255,7 @@ class ExpansionCache:
                         frozenset(w for n in options.noise_words for w in n.split(" ")),
                         frozenset(options.modifiers),
                         lex.pattern_spellings(options),
-                        self._correct if options.spelling else no_correction,
+                        self._speller.correct if options.spelling else no_correction,
                         options.compose_runs,
                         lex.title_words,
                     ),

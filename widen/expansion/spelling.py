@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import threading
 from collections import Counter
 
 import numpy as np
@@ -68,3 +69,24 @@ class Speller:
             return None
         best = min(near, key=lambda m: (m[1], -self.counts[m[2]], m[0]))
         return None if best[0] == word else str(best[0])
+
+
+class LazySpeller:
+    """A `Speller` built on first use (thread-safe), holding nothing but the lexicon: what a cache hands
+    segmentation to correct with, so that nothing the cache holds refers back to the cache (a cycle
+    would leave a replaced bundle's whole cache to the garbage collector; see `service.state`)."""
+
+    def __init__(self, lexicon: Lexicon, titles: bool = True) -> None:
+        self.lexicon, self.titles = lexicon, titles
+        self._speller: Speller | None = None
+        self._lock = threading.Lock()
+
+    def get(self) -> Speller:
+        if self._speller is None:
+            with self._lock:
+                if self._speller is None:
+                    self._speller = Speller(self.lexicon, self.titles)
+        return self._speller
+
+    def correct(self, word: str) -> str | None:
+        return self.get().correct(word)
