@@ -209,3 +209,33 @@ def test_kept_answers_equal_the_reference_on_the_real_title_log(fellhaven_store:
     assert any(parts for _, parts, *_ in kept), "no composed span was kept: the log did not test them"
     assert any(jobs for *_, jobs in kept), "no head word was kept by its query's jobs: the log did not test them"
     assert len(fast.cache.pieces) > 100
+
+
+def test_spelling_reads_only_words_of_a_near_length_and_finds_what_the_whole_list_gives(
+    fellhaven: tuple[Path, Opened],
+) -> None:
+    """The speller searches only the words whose length is within the edits allowed (an edit changes a
+    length by one at most). Against rapidfuzz's search of the whole word list (the reference, the
+    library the speller uses): the same 20 nearest, so the same correction, for every title word of
+    the real-title board slipped once (a letter dropped, added or two swapped) and as typed."""
+    import random
+
+    from rapidfuzz import distance, process
+
+    from widen.expansion.spelling import Speller
+
+    _, opened = fellhaven
+    speller = Speller(opened.lexicon)
+    rnd = random.Random(5)
+    words = [w for w in speller.words if len(w) >= 5]
+    typed = []
+    for w in rnd.sample(words, 600):
+        i = rnd.randrange(len(w) - 1)
+        typed += [w, w[:i] + w[i + 1 :], w[:i] + "e" + w[i:], w[:i] + w[i + 1] + w[i] + w[i + 2 :]]
+    corrected = 0
+    for word in typed:
+        edits = 1 if len(word) <= 8 else 2
+        whole = process.extract(word, speller.words, scorer=distance.OSA.distance, score_cutoff=edits, limit=20)
+        assert [(w, d, n) for w, d, n in whole] == speller._near_in_length(word, edits), word
+        corrected += speller.correct(word) not in (None, word)
+    assert corrected > 600  # most slips were corrected: the comparison was between real searches

@@ -47,14 +47,30 @@ class Speller:
                     counts[word] += n
         self.words = sorted(counts)
         self.counts: npt.NDArray[np.float64] = np.array([counts[w] for w in self.words], dtype=np.float64)
+        self._within: dict[tuple[int, int], tuple[list[str], list[int]]] = {}
+        self._lock = threading.Lock()
+
+    def _near_in_length(self, word: str, edits: int) -> list[tuple[str, int, int]]:
+        """The words at most `edits` edits from `word`, as `process.extract` finds them (the 20 nearest,
+        ties in the word list's order), each with its index in `words`. Only words of a length within
+        `edits` of the word's can be that near (an edit changes the length by one at most), so each
+        search reads those alone, kept in the word list's order per length and bound: the same 20."""
+        key = (len(word), edits)
+        found = self._within.get(key)
+        if found is None:
+            with self._lock:
+                rows = [n for n, w in enumerate(self.words) if abs(len(w) - len(word)) <= edits]
+                found = self._within.setdefault(key, ([self.words[n] for n in rows], rows))
+        choices, rows = found
+        near = process.extract(word, choices, scorer=distance.OSA.distance, score_cutoff=edits, limit=20)
+        return [(str(w), int(d), rows[n]) for w, d, n in near]
 
     def near(self, word: str) -> str | None:
         """The most frequent word one slip away (one edit, a swap of two letters included), for a word of
         three letters or more; None when none is."""
         if len(word) < 3:
             return None
-        found = process.extract(word, self.words, scorer=distance.OSA.distance, score_cutoff=1, limit=20)
-        found = [m for m in found if m[0] != word]
+        found = [m for m in self._near_in_length(word, 1) if m[0] != word]
         return str(max(found, key=lambda m: (self.counts[m[2]], m[0]))[0]) if found else None
 
     def correct(self, word: str) -> str | None:
@@ -64,7 +80,7 @@ class Speller:
         limit = _distance_for(word)
         if limit == 0 or not word.isalpha():
             return None
-        near = process.extract(word, self.words, scorer=distance.OSA.distance, score_cutoff=limit, limit=20)
+        near = self._near_in_length(word, limit)
         if not near:
             return None
         best = min(near, key=lambda m: (m[1], -self.counts[m[2]], m[0]))
