@@ -137,7 +137,8 @@ _FIXED_RUNS = tuple(tuple((f.fixed, f.reason) for f in r if f.fixed is not None)
 
 class Decided(NamedTuple):
     """What the fixed filters decide of one candidate: its facts, its relation hint, per fixed run the
-    first reason that holds (None: none does), and the first of those (`first`)."""
+    first reason that holds (None: none does), and the first of those (`first`). The runs after the
+    first that holds are not tried (None): the list is read in order, so nothing reads them."""
 
     facts: EntryFacts
     relation: str
@@ -161,17 +162,18 @@ def _other_kind(own: frozenset[str], other: frozenset[str], own_head: str, other
     return bool(a - b) and bool(b - a) and len(a & b) >= 2
 
 
+#: A candidate's reasons when the run at that position is the first that holds.
+_UNTRIED = tuple((None,) * n for n in range(len(_FIXED_RUNS)))
+
+
 def _fixed_reasons(c: Candidate, e: EntryFacts, g: Ground) -> tuple[DropReason | None, ...]:
-    """Per fixed run, the first reason that holds for one candidate (None: none does)."""
-    reasons: list[DropReason | None] = []
-    for run in _FIXED_RUNS:
+    """Per fixed run, the first reason that holds for one candidate (None: none does), up to the first
+    run where one does."""
+    for n, run in enumerate(_FIXED_RUNS):
         for test, reason in run:
             if test(c, e, g):
-                reasons.append(reason)
-                break
-        else:
-            reasons.append(None)
-    return tuple(reasons)
+                return (*_UNTRIED[n], reason, *_UNTRIED[len(_FIXED_RUNS) - n - 1])
+    return _UNTRIED[-1] + (None,)
 
 
 def decide(
@@ -191,7 +193,7 @@ def decide(
     for c in found:
         e = entry(c.key, stop, share)
         reasons = _fixed_reasons(c, e, g)
-        first = next((r for r in reasons if r is not None), None)
+        first = next((r for r in reasons if r is not None), None)  # the last run's, or None
         relation = relation_of(c, lex, options, own_postings, g.same_job(c) if c.duties is not None else None)
         if relation == "equivalent" and _other_kind(g.own_core, e.content - g.modifiers, g.own_head, e.head):
             relation = "related"
