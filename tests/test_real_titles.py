@@ -239,3 +239,28 @@ def test_spelling_reads_only_words_of_a_near_length_and_finds_what_the_whole_lis
         assert [(w, d, n) for w, d, n in whole] == speller._near_in_length(word, edits), word
         corrected += speller.correct(word) not in (None, word)
     assert corrected > 600  # most slips were corrected: the comparison was between real searches
+
+
+def test_the_phrase_passes_phrase_as_gensim_does_on_real_text(fellhaven: tuple[Path, Opened]) -> None:
+    """widen applies each frozen phrase pass with a loop of its own (`widen.model.phrases._Pass`);
+    gensim's `FrozenPhrases[sentence]` is the reference. On every sentence of the real-title board's
+    postings (ESCO titles and descriptions, demo_postings/data) and every query of its day's log,
+    both passes in turn, the same tokens."""
+    from widen.text.tokenize import sentences, tokens
+
+    data, opened = fellhaven
+    phraser = opened.lexicon.phraser
+    assert len(phraser.passes) >= 2
+    texts = []
+    for line in (data / "postings.jsonl").open(encoding="utf-8"):
+        posting = json.loads(line)
+        texts += sentences(posting["title"] + ". " + posting["description"])
+    texts += [tokens(json.loads(line)["q"]) for line in (data / "query_log.jsonl").open(encoding="utf-8")]
+    joined = 0
+    for sentence in texts:
+        theirs = ours = sentence
+        for frozen, applied in zip(phraser.passes, phraser._applied, strict=True):
+            theirs, ours = frozen[theirs], applied(ours)
+            assert ours == theirs, sentence
+        joined += len(ours) < len(sentence)
+    assert len(texts) > 20_000 and joined > len(texts) / 10  # phrases were formed, not only words passed
