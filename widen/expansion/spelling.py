@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import threading
+from array import array
 from collections import Counter
 
 import numpy as np
@@ -47,7 +48,7 @@ class Speller:
                     counts[word] += n
         self.words = sorted(counts)
         self.counts: npt.NDArray[np.float64] = np.array([counts[w] for w in self.words], dtype=np.float64)
-        self._within: dict[tuple[int, int], tuple[list[str], list[int]]] = {}
+        self._within: dict[tuple[int, int], tuple[list[str], array[int]]] = {}
         self._lock = threading.Lock()
 
     def _near_in_length(self, word: str, edits: int) -> list[tuple[str, int, int]]:
@@ -59,8 +60,8 @@ class Speller:
         found = self._within.get(key)
         if found is None:
             with self._lock:
-                rows = [n for n, w in enumerate(self.words) if abs(len(w) - len(word)) <= edits]
-                found = self._within.setdefault(key, ([self.words[n] for n in rows], rows))
+                rows = array("l", (n for n, w in enumerate(self.words) if abs(len(w) - len(word)) <= edits))
+                found = self._within.setdefault(key, ([self.words[n] for n in rows], rows))  # 8 bytes a row
         choices, rows = found
         near = process.extract(word, choices, scorer=distance.OSA.distance, score_cutoff=edits, limit=20)
         return [(str(w), int(d), rows[n]) for w, d, n in near]
