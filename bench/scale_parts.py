@@ -167,13 +167,18 @@ def _rss_mib(pid: int) -> float:
     return round(float(sum(p.memory_info().rss for p in [proc, *proc.children(recursive=True)])) / 2**20, 1)
 
 
-def serving(store: Path, prepare_entries: int, queries: list[str]) -> dict[str, Any]:
-    """From `widen serve` to ready, and RSS and PSS once it answered `queries`, for 1 and 2 workers."""
+def _checkout_env(env: dict[str, str], source: Path | None) -> dict[str, str]:
+    return env if source is None else {**env, "PYTHONPATH": str(source)}  # served from `source`'s checkout
+
+
+def serving(store: Path, prepare_entries: int, queries: list[str], source: Path | None = None) -> dict[str, Any]:
+    """From `widen serve` to ready, and RSS and PSS once it answered `queries`, for 1 and 2 workers;
+    served by the checkout at `source` (None: this one)."""
     got: dict[str, Any] = {"prepare_entries": prepare_entries}
-    env = {"WIDEN_PREPARE_ENTRIES": str(prepare_entries)}
+    env = _checkout_env({"WIDEN_PREPARE_ENTRIES": str(prepare_entries)}, source)
     for workers in (1, 2):
         started = time.monotonic()
-        with live_server(store, env, args=("--workers", str(workers)), ready_within=600) as server:
+        with live_server(store, env, args=("--workers", str(workers)), ready_within=600, cwd=source) as server:
             ready = time.monotonic() - started
             with httpx.Client(base_url=server.base, timeout=30) as client:
                 for q in queries:
@@ -208,15 +213,19 @@ def _pss_as_the_day_goes(base: str, pid: int, day: list[str], marks: tuple[int, 
 
 
 def through_the_day(
-    store: Path, log: Path, prepare_entries: int, marks: tuple[int, ...] = (200, 2_000, 20_000)
+    store: Path,
+    log: Path,
+    prepare_entries: int,
+    marks: tuple[int, ...] = (200, 2_000, 20_000),
+    source: Path | None = None,
 ) -> dict[str, Any]:
     """PSS of 1 and of 2 workers as the day's log goes through them, in order, over 4 connections: each
     worker keeps its own answers and its own tail entries, so the two grow apart from one served process."""
     day = [json.loads(line)["q"] for line in log.read_text(encoding="utf-8").splitlines() if line.strip()]
     got: dict[str, Any] = {"prepare_entries": prepare_entries, "connections": 4}
     for workers in (1, 2):
-        env = {"WIDEN_PREPARE_ENTRIES": str(prepare_entries)}
-        with live_server(store, env, args=("--workers", str(workers)), ready_within=600) as server:
+        env = _checkout_env({"WIDEN_PREPARE_ENTRIES": str(prepare_entries)}, source)
+        with live_server(store, env, args=("--workers", str(workers)), ready_within=600, cwd=source) as server:
             seen = _pss_as_the_day_goes(server.base, server.process.pid, day, marks)
         got[f"{workers}_worker_pss_mib"] = seen
     got["pss_2_over_1"] = {
