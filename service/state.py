@@ -158,7 +158,8 @@ class ServiceState:
                 if self.settings.prepare:  # before the swap: the bundle serving now keeps serving meanwhile
                     started = time.monotonic()
                     entries = prepare(lexicon, cache, options, self.settings.prepare_entries)
-                    log.info("prepared %d entries and titles of %s in %.1f s", entries, version, time.monotonic() - started)
+                    took = time.monotonic() - started
+                    log.info("prepared %d entries and titles of %s in %.1f s", entries, version, took)
                 self.serving = Serving(lexicon, cache, options)
                 _out_of_collection()
             log.info("serving bundle %s", version)
