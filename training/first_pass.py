@@ -19,6 +19,7 @@ from pathlib import Path
 from typing import IO
 
 from training.corpus import Posting, PostingCorpus
+from training.counting import RUN_BYTES, line_runs
 from training.progress import Progress
 from training.titles import title_cores
 from widen.model.phrases import Phraser
@@ -46,10 +47,16 @@ class Scratch:
         self.generation = 0
         self.path = folder / "sentences.0.txt"
 
-    def through(self, phraser: Phraser) -> Iterator[list[str]]:
-        source = self.path
+    def _next(self) -> tuple[Path, Path]:
         self.generation += 1
-        target = self.folder / f"sentences.{self.generation}.txt"
+        return self.path, self.folder / f"sentences.{self.generation}.txt"
+
+    def _done(self, source: Path, target: Path) -> None:
+        source.unlink()
+        self.path = target
+
+    def through(self, phraser: Phraser) -> Iterator[list[str]]:
+        source, target = self._next()
         with target.open("w", encoding="utf-8") as dst:
             if self.workers <= 1:
                 with source.open(encoding="utf-8") as src:
@@ -62,12 +69,24 @@ class Scratch:
                     dst.write(text)
                     for line in _lines_of(text):
                         yield line[2:].split()  # entries hold no space: the same list as the pass made
-        source.unlink()
-        self.path = target
+        self._done(source, target)
+
+    def apply(self, phraser: Phraser) -> Path:
+        """One more phrase pass applied and written as the next scratch file, which is returned: what
+        `through` writes, with no sentence handed back (`training.counting` counts the file)."""
+        source, target = self._next()
+        with target.open("w", encoding="utf-8") as dst:
+            if self.workers <= 1:
+                dst.write(_phrase_run(source, 0, source.stat().st_size, phraser))
+            else:
+                for text in _phrased_runs(source, phraser, self.workers):
+                    dst.write(text)
+        self._done(source, target)
+        return target
 
 
 #: The bytes of scratch corpus one worker phrases at a time.
-_RUN_BYTES = 1 << 23
+_RUN_BYTES = RUN_BYTES
 _phraser: Phraser | None = None  # the pass a worker applies, set once when the pool starts
 
 
@@ -76,13 +95,15 @@ def _set_phraser(phraser: Phraser) -> None:
     _phraser = phraser
 
 
-def _phrase_run(source: Path, start: int, stop: int) -> str:
-    """Runs in a worker: the lines of `source` in [start, stop) with the pass applied, as they are written."""
-    assert _phraser is not None
+def _phrase_run(source: Path, start: int, stop: int, phraser: Phraser | None = None) -> str:
+    """Runs in a worker: the lines of `source` in [start, stop) with the pass applied (the worker's own,
+    or `phraser`), as they are written."""
+    phraser = phraser or _phraser
+    assert phraser is not None
     with source.open("rb") as fh:
         fh.seek(start)
         text = fh.read(stop - start).decode("utf-8")
-    return "".join(f"{line[:2]}{' '.join(_phraser(line[2:].split()))}\n" for line in _lines_of(text))
+    return "".join(f"{line[:2]}{' '.join(phraser(line[2:].split()))}\n" for line in _lines_of(text))
 
 
 def _lines_of(text: str) -> list[str]:
@@ -90,24 +111,11 @@ def _lines_of(text: str) -> list[str]:
     return text.split("\n")[:-1]
 
 
-def _line_runs(source: Path) -> Iterator[tuple[int, int]]:
-    """`source` cut at line starts into runs of about `_RUN_BYTES`."""
-    size = source.stat().st_size
-    with source.open("rb") as fh:
-        start = 0
-        while start < size:
-            fh.seek(min(start + _RUN_BYTES, size))
-            fh.readline()
-            stop = min(fh.tell(), size)
-            yield start, stop
-            start = stop
-
-
 def _phrased_runs(source: Path, phraser: Phraser, workers: int) -> Iterator[str]:
     """The runs of `source` phrased by `workers` forked processes, in order, a bounded number ahead."""
     with multiprocessing.get_context("fork").Pool(workers, initializer=_set_phraser, initargs=(phraser,)) as pool:
         pending: deque[AsyncResult[str]] = deque()
-        for start, stop in _line_runs(source):
+        for start, stop in line_runs(source, _RUN_BYTES):
             pending.append(pool.apply_async(_phrase_run, (source, start, stop)))
             if len(pending) >= 2 * workers:
                 yield pending.popleft().get()
@@ -219,6 +227,18 @@ class FirstPass:
                 yield from pending.popleft().get()
 
     def __iter__(self) -> Iterator[list[str]]:
+        for done in self._written():
+            for row in done.lines.splitlines():
+                yield row[2:].split()
+
+    def write(self) -> Path:
+        """Read the whole dump into the scratch file, which is returned (`training.counting` counts it)."""
+        for _ in self._written():
+            pass
+        return self.scratch
+
+    def _written(self) -> Iterator[_Tokenised]:
+        """Every posting kept, once it is written to the scratch file and its names and cores noted."""
         seen: set[bytes] = set()
         with (
             Progress("read and tokenise", unit="postings", stream=self.out) as bar,
@@ -238,9 +258,8 @@ class FirstPass:
                 self.tokens += done.tokens
                 fh.write(done.lines)
                 names.write(" ".join(done.names) + "\n")
-                for row in done.lines.splitlines():
-                    yield row[2:].split()
                 for key, field, value in done.protected:
                     if key not in self.protected and len(self.protected) < MAX_PROTECTED:
                         self.protected[key] = (field, value)
                 self.cores.update(set(done.cores))
+                yield done

@@ -10,15 +10,22 @@ longer than `max_words` is never formed.
 
 from __future__ import annotations
 
-from collections.abc import Callable, Collection, Iterable
+import functools
+from collections.abc import Callable, Collection, Iterable, Iterator
+from pathlib import Path
+from typing import Any
 
 from gensim.models.phrases import FrozenPhrases, Phrases
 
 from training.config import PhrasesSection
+from training.counting import count_file, pass_counts
 from widen.model.phrases import Phraser, PhraseRow
 from widen.text.forms import PHRASE_JOINER, words_in
 
-__all__ = ["learn_phrases", "phrase_filter"]
+__all__ = ["ScratchPass", "learn_phrases", "phrase_filter"]
+
+#: gensim's cap on the entries Phrases counts (its default): past it, gensim drops the rarest as it goes.
+MAX_VOCAB = 40_000_000
 
 
 class phrase_filter:
@@ -49,17 +56,56 @@ class phrase_filter:
         return True
 
 
+class ScratchPass:
+    """A phrase pass's sentences as a scratch file (`training.first_pass`): `make()` writes it (reading the
+    dump, or applying the pass before) and returns it; it is then counted in runs by `workers` processes
+    (`training.counting`) rather than sentence by sentence by gensim."""
+
+    def __init__(self, make: Callable[[], Path], workers: int) -> None:
+        self.make, self.workers = make, workers
+
+
+def _sentences(scratch: Path) -> Iterator[list[str]]:
+    with scratch.open(encoding="utf-8") as fh:
+        for line in fh:
+            yield line[2:].split()
+
+
+def _counted(stream: Iterable[list[str]] | ScratchPass, config: PhrasesSection) -> Phrases:
+    """gensim's Phrases with the counts of one pass: made in runs for a scratch file, by gensim for sentences."""
+    settings: dict[str, Any] = {
+        "min_count": config.min_count,
+        "threshold": config.threshold,
+        "scoring": "npmi" if config.scoring == "npmi" else "default",  # gensim's names
+        "delimiter": PHRASE_JOINER,
+        "connector_words": frozenset(config.bridge_words),
+        "progress_per": 10**12,
+        "max_vocab_size": MAX_VOCAB,
+    }
+    if not isinstance(stream, ScratchPass):
+        return Phrases(stream, **settings)
+    scratch = stream.make()
+    count = functools.partial(pass_counts, bridges=settings["connector_words"], joiner=PHRASE_JOINER)
+    counted = count_file(scratch, count, stream.workers)
+    model = Phrases(None, **settings)
+    if len(counted.vocab) > MAX_VOCAB:
+        # gensim drops its rarest counts on the way past this size, which sums in parts cannot replay
+        return Phrases(_sentences(scratch), **settings)
+    model.vocab, model.corpus_word_count = counted.vocab, counted.words  # what Phrases.add_vocab keeps of a first count
+    return model
+
+
 def learn_phrases(
-    first: Iterable[list[str]],
-    again: Callable[[Phraser], Iterable[list[str]]],
+    first: Iterable[list[str]] | ScratchPass,
+    again: Callable[[Phraser], Iterable[list[str]] | ScratchPass],
     config: PhrasesSection,
     on_pass: Callable[[int], None] | None = None,
     keep: Callable[[str], bool] | None = None,
 ) -> tuple[Phraser, list[PhraseRow]]:
     """Learn `max_words - 1` passes: the first over `first`, pass k over `again(pass k-1)`.
 
-    `first` may be the stream that reads and tokenises the corpus, so pass one costs no extra
-    read; `again(newest)` must stream the corpus as phrased so far with `newest` applied on top,
+    `first` is the corpus's sentences, or a `ScratchPass` that reads and tokenises the dump into a
+    scratch file; `again(newest)` must give the corpus as phrased so far with `newest` applied on top,
     so every pass is applied once, as when phrasing by hand. `keep`, when given, decides which mined
     phrases of each pass are kept (see `phrase_filter`).
     """
@@ -67,15 +113,7 @@ def learn_phrases(
     table: list[PhraseRow] = []
     for number in range(1, config.max_words):
         stream = first if number == 1 else again(Phraser(passes[-1:]))
-        model = Phrases(
-            stream,
-            min_count=config.min_count,
-            threshold=config.threshold,
-            scoring="npmi" if config.scoring == "npmi" else "default",  # gensim's names
-            delimiter=PHRASE_JOINER,
-            connector_words=frozenset(config.bridge_words),
-            progress_per=10**12,
-        )
+        model = _counted(stream, config)
         frozen = model.freeze()
         kept = {
             p: s for p, s in frozen.phrasegrams.items() if words_in(p) <= config.max_words and (keep is None or keep(p))
@@ -88,7 +126,10 @@ def learn_phrases(
             on_pass(number)
         if not kept:
             break
-    if config.max_words == 1:
-        for _ in first:  # no phrase pass, but the stream must still be read once
-            pass
+    if config.max_words == 1:  # no phrase pass, but the corpus must still be read once
+        if isinstance(first, ScratchPass):
+            first.make()
+        else:
+            for _ in first:
+                pass
     return Phraser(passes), table

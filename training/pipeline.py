@@ -151,7 +151,7 @@ def _run(
         )
         keep_words(phrased_path, counts, config.embedding.min_count)
     with clock.stage("skip-gram"):
-        model = fit_skipgram(phrased_path, config, out)
+        model = fit_skipgram(phrased_path, config, out, config.corpus.workers)
     with clock.stage("titles and duties"):
         duties = stages.titles_and_duties(model, postings, config)
     with clock.stage("save"):

@@ -2,8 +2,8 @@
 
 `training.pipeline.train` calls them in order and times each:
 
-1. `read_and_phrase`: read, de-duplicate and tokenise the dump once (the first phrase pass counts
-   while it reads), learn the later phrase passes, pick the title entries;
+1. `read_and_phrase`: read, de-duplicate and tokenise the dump once into a scratch corpus, learn the
+   phrase passes from counts made in runs (`training.counting`), pick the title entries;
 2. `final_pass` (`training.final_pass`): apply the passes, write the skip-gram and duties files;
 3. `fit_skipgram` (`training.skipgram`): skip-gram over the phrased corpus;
 4. `titles_and_duties`: which entries are titles, and their duties profiles;
@@ -31,7 +31,7 @@ from training.corpus import PostingCorpus
 from training.duties import TitleTable, title_table
 from training.first_pass import FirstPass, Scratch
 from training.gate import GateResult, Pair, decide, score_pairs, search_impact
-from training.phrases import learn_phrases, phrase_filter
+from training.phrases import ScratchPass, learn_phrases, phrase_filter
 from training.progress import Progress
 from training.skipgram import structure_problems
 from widen.decisions.decision import DecisionSet
@@ -80,8 +80,8 @@ def check_bad_fraction(corpus: PostingCorpus, used: int, config: TrainConfig) ->
 
 
 def read_and_phrase(corpus: PostingCorpus, scratch: Scratch, config: TrainConfig, out: IO[str]) -> Phrased:
-    """Read and tokenise once (tokenising in worker processes while the first phrase pass counts), learn
-    the later passes over the scratch corpus, and keep the title cores named often enough."""
+    """Read and tokenise once (tokenising in worker processes) into a scratch corpus, learn the phrase passes
+    over it (each pass counted in runs by worker processes), and keep the title cores named often enough."""
     apart = config.expansion.not_inside_phrases()
     # A title core leaves out what decorates a title: patterns, noise words, and modifiers too
     # ("trainee staff nurse" names a staff nurse; mining still forms "senior carer" on its own).
@@ -98,7 +98,14 @@ def read_and_phrase(corpus: PostingCorpus, scratch: Scratch, config: TrainConfig
     keep = phrase_filter(lambda: first.protected.keys(), apart)
     passes = max(config.phrases.max_words - 1, 0)
     with Progress("phrase passes", total=passes, unit="passes", stream=out, every=0) as bar:
-        mined, table = learn_phrases(first, scratch.through, config.phrases, lambda n: bar.update(), keep)
+        workers = config.corpus.workers
+        mined, table = learn_phrases(
+            ScratchPass(first.write, workers),
+            lambda newest: ScratchPass(lambda: scratch.apply(newest), workers),
+            config.phrases,
+            lambda n: bar.update(),
+            keep,
+        )
     check_bad_fraction(corpus, first.used, config)
     titles = {c for c, n in first.cores.items() if n >= config.phrases.title_min_count and keep(c)}
     return Phrased(first, Phraser(mined.passes, titles), table, titles)
