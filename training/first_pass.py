@@ -35,10 +35,10 @@ MAX_PROTECTED = 200_000
 class Scratch:
     """The corpus as phrased so far, in a scratch file of `M<TAB>tokens` lines (see the module).
 
-    `through(phraser)` streams it with one more phrase pass applied and writes that as the
-    next scratch file, so the next pass reads it without applying earlier passes again. With
-    `workers` above 1, forked processes apply the pass to runs of lines while the caller (gensim
-    Phrases) counts the run before; the lines come back in order, the same as one process makes.
+    `apply(phraser)` writes it with one more phrase pass applied as the next scratch file, so the
+    next pass reads it without applying earlier passes again. With `workers` above 1, forked
+    processes apply the pass to runs of lines; the runs are written in order, the same file one
+    process makes.
     """
 
     def __init__(self, folder: Path, workers: int = 1) -> None:
@@ -55,25 +55,9 @@ class Scratch:
         source.unlink()
         self.path = target
 
-    def through(self, phraser: Phraser) -> Iterator[list[str]]:
-        source, target = self._next()
-        with target.open("w", encoding="utf-8") as dst:
-            if self.workers <= 1:
-                with source.open(encoding="utf-8") as src:
-                    for line in src:
-                        entries = phraser(line[2:].split())
-                        dst.write(f"{line[:2]}{' '.join(entries)}\n")
-                        yield entries
-            else:
-                for text in _phrased_runs(source, phraser, self.workers):
-                    dst.write(text)
-                    for line in _lines_of(text):
-                        yield line[2:].split()  # entries hold no space: the same list as the pass made
-        self._done(source, target)
-
     def apply(self, phraser: Phraser) -> Path:
-        """One more phrase pass applied and written as the next scratch file, which is returned: what
-        `through` writes, with no sentence handed back (`training.counting` counts the file)."""
+        """One more phrase pass applied and written as the next scratch file, which is returned
+        (`training.counting` counts it)."""
         source, target = self._next()
         with target.open("w", encoding="utf-8") as dst:
             if self.workers <= 1:
@@ -183,9 +167,8 @@ def _batched(corpus: PostingCorpus, size: int = 256) -> Iterator[list[Posting]]:
 class FirstPass:
     """Read, validate, de-duplicate and tokenise every posting once.
 
-    Iterating yields the sentences (for the first phrase pass) and, as a side effect, writes
-    them to the scratch file. Tokenising runs in `workers` processes while the caller (gensim
-    Phrases) counts the batch before.
+    `write()` reads the dump into the scratch file. Tokenising runs in `workers` processes while
+    this one reads, drops duplicates and writes.
     """
 
     def __init__(
@@ -225,11 +208,6 @@ class FirstPass:
                     yield from pending.popleft().get()
             while pending:
                 yield from pending.popleft().get()
-
-    def __iter__(self) -> Iterator[list[str]]:
-        for done in self._written():
-            for row in done.lines.splitlines():
-                yield row[2:].split()
 
     def write(self) -> Path:
         """Read the whole dump into the scratch file, which is returned (`training.counting` counts it)."""
